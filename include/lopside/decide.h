@@ -1,0 +1,32 @@
+/* Choosing among actions: expected loss under a distribution over states,
+ * the Bayes action with ties, and the value of perfect information. */
+#ifndef LOPSIDE_DECIDE_H
+#define LOPSIDE_DECIDE_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "lopside/error.h"
+#include "lopside/problem.h"
+#include "lopside/results.h"
+
+/* Writes to el[a] the sum over states of w[s]·loss(a, s) (w need not be normalized). */
+void lop_decide_expected(const lop_problem *p, const double *w, double *el);
+
+/* Returns the action with the least el; ties go to the earlier action. */
+size_t lop_decide_best(const double *el, size_t n_actions);
+
+/* Returns true when el_a and el_best are equal up to rounding of losses of size scale. */
+bool lop_decide_tied(double el_a, double el_best, double scale);
+
+/* Returns the largest absolute loss of p: the scale for tie tests. */
+double lop_decide_loss_scale(const lop_problem *p);
+
+/* Returns the expected loss with the state known: sum over states of w[s]·min_a loss(a, s). */
+double lop_decide_perfect(const lop_problem *p, const double *w);
+
+/* Returns LOP_OK after filling r->kase: posterior given every observed value, expected
+ * loss per action, Bayes action, runner-up, ties and EVPI. */
+lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err);
+
+#endif

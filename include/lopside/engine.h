@@ -1,0 +1,13 @@
+/* The whole computation for one problem: case, rule and the warnings that go with
+ * them. Pure: no I/O. */
+#ifndef LOPSIDE_ENGINE_H
+#define LOPSIDE_ENGINE_H
+
+#include "lopside/error.h"
+#include "lopside/problem.h"
+#include "lopside/results.h"
+
+/* Returns results for p (caller frees with lop_results_free), or NULL with err set. */
+lop_results *lop_engine_solve(const lop_problem *p, lop_error *err);
+
+#endif

@@ -1,0 +1,93 @@
+#include <math.h>
+#include <stdlib.h>
+
+#include "lopside/decide.h"
+#include "lopside/evidence.h"
+#include "lopside/posterior.h"
+
+/* Expected losses this close (relative to the largest loss) count as a tie:
+ * far above the rounding of a sum over states, far below any real difference. */
+#define TIE_RELATIVE 1e-12
+
+void lop_decide_expected(const lop_problem *p, const double *w, double *el)
+{
+    for (size_t a = 0; a < p->n_actions; a++) {
+        double sum = 0;
+        const double *row = &p->loss[a * p->n_states];
+        for (size_t s = 0; s < p->n_states; s++)
+            sum += w[s] * row[s];
+        el[a] = sum;
+    }
+}
+
+size_t lop_decide_best(const double *el, size_t n_actions)
+{
+    size_t best = 0;
+    for (size_t a = 1; a < n_actions; a++)
+        if (el[a] < el[best])
+            best = a;
+    return best;
+}
+
+bool lop_decide_tied(double el_a, double el_best, double scale)
+{
+    return fabs(el_a - el_best) <= TIE_RELATIVE * (scale > 0 ? scale : 1);
+}
+
+double lop_decide_loss_scale(const lop_problem *p)
+{
+    double scale = 0;
+    for (size_t i = 0; i < p->n_actions * p->n_states; i++)
+        if (fabs(p->loss[i]) > scale)
+            scale = fabs(p->loss[i]);
+    return scale;
+}
+
+double lop_decide_perfect(const lop_problem *p, const double *w)
+{
+    double sum = 0;
+    for (size_t s = 0; s < p->n_states; s++) {
+        double best = INFINITY;
+        for (size_t a = 0; a < p->n_actions; a++)
+            if (lop_problem_loss(p, a, s) < best)
+                best = lop_problem_loss(p, a, s);
+        sum += w[s] * best;
+    }
+    return sum;
+}
+
+lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err)
+{
+    lop_case_result *c = &r->kase;
+    double *logw = malloc(p->n_states * sizeof *logw);
+    if (!logw)
+        return lop_error_run(err, "out of memory");
+    for (size_t s = 0; s < p->n_states; s++)
+        logw[s] = log(p->prior[s]);
+    lop_evidence_add_observed(p, logw);
+    double norm = lop_posterior_normalize(logw, p->n_states, c->posterior);
+    free(logw);
+    if (norm == -INFINITY)
+        return lop_error_run(err, "the observed values have no likelihood under any state");
+
+    lop_decide_expected(p, c->posterior, c->expected_loss);
+    c->bayes_action = lop_decide_best(c->expected_loss, p->n_actions);
+    double best = c->expected_loss[c->bayes_action];
+    double scale = lop_decide_loss_scale(p);
+    c->runner_up = c->bayes_action == 0 ? 1 : 0;
+    c->n_tied = 0;
+    c->tied[c->n_tied++] = c->bayes_action;
+    for (size_t a = 0; a < p->n_actions; a++) {
+        if (a == c->bayes_action)
+            continue;
+        if (c->expected_loss[a] < c->expected_loss[c->runner_up] || c->runner_up == c->bayes_action)
+            c->runner_up = a;
+        if (lop_decide_tied(c->expected_loss[a], best, scale))
+            c->tied[c->n_tied++] = a;
+    }
+    c->margin = c->expected_loss[c->runner_up] - best;
+    c->evpi = best - lop_decide_perfect(p, c->posterior);
+    if (c->evpi < 0) /* rounding only: perfect information never costs */
+        c->evpi = 0;
+    return LOP_OK;
+}

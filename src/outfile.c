@@ -1,0 +1,70 @@
+#include <errno.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "lopside/outfile.h"
+#include "lopside/strutil.h"
+
+lop_status lop_outfile_open(lop_outfile *out, const char *path, lop_error *err)
+{
+    memset(out, 0, sizeof *out);
+    size_t n = strlen(path) + sizeof ".tmp-XXXXXX";
+    out->path = lop_strdup(path);
+    out->tmp_path = malloc(n);
+    if (!out->path || !out->tmp_path) {
+        lop_outfile_abandon(out);
+        return lop_error_run(err, "out of memory");
+    }
+    snprintf(out->tmp_path, n, "%s.tmp-XXXXXX", path);
+    int fd = mkstemp(out->tmp_path);
+    if (fd < 0) {
+        int e = errno;
+        free(out->tmp_path);
+        out->tmp_path = NULL;
+        lop_outfile_abandon(out);
+        return lop_error_run(err, "cannot write %s: %s", path, strerror(e));
+    }
+    out->file = fdopen(fd, "w");
+    if (!out->file) {
+        int e = errno;
+        close(fd);
+        lop_outfile_abandon(out);
+        return lop_error_run(err, "cannot write %s: %s", path, strerror(e));
+    }
+    return LOP_OK;
+}
+
+lop_status lop_outfile_commit(lop_outfile *out, lop_error *err)
+{
+    int failed = ferror(out->file) || fflush(out->file) != 0 || fsync(fileno(out->file)) != 0;
+    int e = errno;
+    failed |= fclose(out->file) != 0;
+    if (!e)
+        e = errno;
+    out->file = NULL;
+    if (!failed && rename(out->tmp_path, out->path) != 0) {
+        failed = 1;
+        e = errno;
+    }
+    if (failed) {
+        lop_error_run(err, "cannot write %s: %s", out->path, strerror(e ? e : EIO));
+        lop_outfile_abandon(out);
+        return LOP_ERUN;
+    }
+    free(out->tmp_path);
+    out->tmp_path = NULL;
+    lop_outfile_abandon(out);
+    return LOP_OK;
+}
+
+void lop_outfile_abandon(lop_outfile *out)
+{
+    if (out->file)
+        fclose(out->file);
+    if (out->tmp_path)
+        remove(out->tmp_path);
+    free(out->tmp_path);
+    free(out->path);
+    memset(out, 0, sizeof *out);
+}

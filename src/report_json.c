@@ -1,0 +1,215 @@
+#include <jansson.h>
+#include <string.h>
+
+#include "lopside/outfile.h"
+#include "lopside/report.h"
+
+/* Adds `key` (a loss) and, for payoff problems, `payoff_key` with the sign flipped. */
+static void set_score(json_t *obj, const lop_problem *p, const char *key,
+                      const char *payoff_key, double loss)
+{
+    json_object_set_new(obj, key, json_real(loss));
+    if (p->payoff)
+        json_object_set_new(obj, payoff_key, json_real(-loss));
+}
+
+static json_t *string_array(char **items, size_t n)
+{
+    json_t *arr = json_array();
+    for (size_t i = 0; i < n; i++)
+        json_array_append_new(arr, json_string(items[i]));
+    return arr;
+}
+
+static json_t *real_array(const double *v, size_t n)
+{
+    json_t *arr = json_array();
+    for (size_t i = 0; i < n; i++)
+        json_array_append_new(arr, json_real(v[i]));
+    return arr;
+}
+
+static json_t *problem_json(const lop_problem *p)
+{
+    json_t *obj = json_object();
+    json_object_set_new(obj, "title", json_string(p->title));
+    json_object_set_new(obj, "notes", json_string(p->notes));
+    json_object_set_new(obj, "unit", json_string(p->unit));
+    json_object_set_new(obj, "score_unit", json_string(p->score_unit));
+    json_t *states = json_object();
+    if (p->states_kind == LOP_STATES_VALUES)
+        json_object_set_new(states, "values", real_array(p->state_values, p->n_states));
+    else
+        json_object_set_new(states, "labels", string_array(p->state_labels, p->n_states));
+    json_object_set_new(obj, "states", states);
+    json_object_set_new(obj, "prior", real_array(p->prior, p->n_states));
+    json_object_set_new(obj, "actions", string_array(p->actions, p->n_actions));
+    json_t *channels = json_array();
+    for (size_t i = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        json_t *ch = json_object();
+        json_object_set_new(ch, "name", json_string(lop_report_channel_name(c)));
+        json_object_set_new(ch, "kind",
+                            json_string(c->kind == LOP_CHANNEL_TABLE ? "table" : "gaussian"));
+        json_object_set_new(ch, "repeats", json_integer((json_int_t)c->repeats));
+        if (c->kind == LOP_CHANNEL_TABLE)
+            json_object_set_new(ch, "outcomes", string_array(c->outcomes, c->n_outcomes));
+        json_array_append_new(channels, ch);
+    }
+    json_object_set_new(obj, "channels", channels);
+    return obj;
+}
+
+static json_t *case_json(const lop_problem *p, const lop_results *r)
+{
+    const lop_case_result *c = &r->kase;
+    json_t *obj = json_object();
+    json_t *post = json_object();
+    if (p->states_kind == LOP_STATES_VALUES)
+        json_object_set_new(post, "values", real_array(p->state_values, p->n_states));
+    else
+        json_object_set_new(post, "labels", string_array(p->state_labels, p->n_states));
+    json_object_set_new(post, "p", real_array(c->posterior, p->n_states));
+    json_object_set_new(obj, "posterior", post);
+    json_t *actions = json_array();
+    for (size_t a = 0; a < p->n_actions; a++) {
+        json_t *row = json_object();
+        json_object_set_new(row, "action", json_string(p->actions[a]));
+        set_score(row, p, "expected_loss", "expected_payoff", c->expected_loss[a]);
+        json_array_append_new(actions, row);
+    }
+    json_object_set_new(obj, "actions", actions);
+    json_object_set_new(obj, "bayes_action", json_string(p->actions[c->bayes_action]));
+    set_score(obj, p, "expected_loss", "expected_payoff", c->expected_loss[c->bayes_action]);
+    json_object_set_new(obj, "runner_up", json_string(p->actions[c->runner_up]));
+    json_object_set_new(obj, "margin", json_real(c->margin));
+    json_t *tied = json_array();
+    for (size_t t = 0; c->n_tied > 1 && t < c->n_tied; t++)
+        json_array_append_new(tied, json_string(p->actions[c->tied[t]]));
+    json_object_set_new(obj, "ties", tied);
+    json_object_set_new(obj, "evpi", json_real(c->evpi));
+    return obj;
+}
+
+/* The outcomes of one rule row: a label per channel with one repeat, counts otherwise. */
+static json_t *row_outcomes(const lop_problem *p, const lop_rule_result *rule, size_t row)
+{
+    json_t *obj = json_object();
+    size_t col = 0;
+    for (size_t i = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        if (c->kind != LOP_CHANNEL_TABLE)
+            continue;
+        const size_t *counts = &rule->counts[row * rule->n_columns + col];
+        json_t *value = NULL;
+        if (c->repeats == 1) {
+            for (size_t o = 0; o < c->n_outcomes; o++)
+                if (counts[o])
+                    value = json_string(c->outcomes[o]);
+        } else {
+            value = json_object();
+            for (size_t o = 0; o < c->n_outcomes; o++)
+                json_object_set_new(value, c->outcomes[o], json_integer((json_int_t)counts[o]));
+        }
+        json_object_set_new(obj, lop_report_channel_name(c), value);
+        col += c->n_outcomes;
+    }
+    return obj;
+}
+
+static json_t *rule_json(const lop_problem *p, const lop_results *r)
+{
+    const lop_rule_result *rule = &r->rule;
+    json_t *obj = json_object();
+    json_object_set_new(obj, "computed", json_boolean(rule->computed));
+    set_score(obj, p, "prior_only_risk", "prior_only_payoff", rule->prior_only_risk);
+    json_object_set_new(obj, "prior_only_action",
+                        json_string(p->actions[rule->prior_only_action]));
+    if (!rule->computed) {
+        json_object_set_new(obj, "bayes_risk", json_null());
+        json_object_set_new(obj, "not_computed", json_string(rule->not_computed_why));
+        json_object_set_new(obj, "switch_points", json_array());
+        return obj;
+    }
+    set_score(obj, p, "bayes_risk", "bayes_payoff", rule->bayes_risk);
+    json_object_set_new(obj, "value_of_evidence",
+                        json_real(rule->prior_only_risk - rule->bayes_risk));
+    json_t *switches = json_array();
+    for (size_t k = 0; k < rule->n_switches; k++) {
+        const lop_switch_point *sp = &rule->switches[k];
+        json_t *s = json_object();
+        json_object_set_new(s, "x", json_real(sp->x));
+        json_object_set_new(s, "from", json_string(p->actions[sp->from]));
+        json_object_set_new(s, "to", json_string(p->actions[sp->to]));
+        if (rule->n_columns)
+            json_object_set_new(s, "given", row_outcomes(p, rule, sp->row));
+        json_array_append_new(switches, s);
+    }
+    json_object_set_new(obj, "switch_points", switches);
+    if (rule->n_columns) {
+        json_t *table = json_array();
+        for (size_t row = 0; row < rule->n_rows; row++) {
+            json_t *t = json_object();
+            json_object_set_new(t, "outcomes", row_outcomes(p, rule, row));
+            json_object_set_new(t, "probability", json_real(rule->row_probability[row]));
+            if (rule->numeric_channel < 0) {
+                json_object_set_new(t, "action", json_string(p->actions[rule->row_action[row]]));
+                set_score(t, p, "expected_loss", "expected_payoff", rule->row_expected_loss[row]);
+            }
+            json_array_append_new(table, t);
+        }
+        json_object_set_new(obj, "table", table);
+    }
+    if (rule->numeric_channel >= 0) {
+        json_t *grid = json_object();
+        json_object_set_new(grid, "channel",
+                            json_string(lop_report_channel_name(
+                                &p->channels[rule->numeric_channel])));
+        json_object_set_new(grid, "x", real_array(rule->grid, rule->n_grid));
+        json_t *rows = json_array();
+        for (size_t row = 0; row < rule->n_rows; row++) {
+            json_t *acts = json_array();
+            for (size_t i = 0; i < rule->n_grid; i++)
+                json_array_append_new(
+                    acts, json_string(p->actions[rule->grid_action[row * rule->n_grid + i]]));
+            json_array_append_new(rows, acts);
+        }
+        json_object_set_new(grid, "action", rows);
+        json_object_set_new(obj, "grid", grid);
+    }
+    return obj;
+}
+
+lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
+                           const lop_provenance *prov, lop_error *err)
+{
+    json_t *root = json_object();
+    json_t *tool = json_object();
+    json_object_set_new(tool, "name", json_string("lopside"));
+    json_object_set_new(tool, "version", json_string(LOP_VERSION));
+    json_object_set_new(root, "tool", tool);
+    json_t *input = json_object();
+    json_object_set_new(input, "path", json_string(prov->input_path));
+    json_object_set_new(input, "sha256", json_string(prov->sha256));
+    json_object_set_new(root, "input", input);
+    json_object_set_new(root, "generated", json_string(prov->generated));
+    json_object_set_new(root, "orientation", json_string(lop_problem_orientation(p)));
+    json_object_set_new(root, "problem", problem_json(p));
+    json_object_set_new(root, "case", case_json(p, r));
+    json_object_set_new(root, "rule", r->has_rule ? rule_json(p, r) : json_null());
+    json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));
+
+    lop_outfile out;
+    lop_status st = lop_outfile_open(&out, path, err);
+    if (st == LOP_OK) {
+        if (json_dumpf(root, out.file, JSON_INDENT(2) | JSON_REAL_PRECISION(17)) != 0 ||
+            fputc('\n', out.file) == EOF) {
+            lop_outfile_abandon(&out);
+            st = lop_error_run(err, "cannot write %s", path);
+        } else {
+            st = lop_outfile_commit(&out, err);
+        }
+    }
+    json_decref(root);
+    return st;
+}

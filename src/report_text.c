@@ -1,0 +1,250 @@
+#include <math.h>
+#include <string.h>
+
+#include "lopside/report.h"
+
+/* Rows of the rule table shown at a terminal; JSON has them all. */
+#define ROWS_SHOWN 24
+
+const char *lop_report_channel_name(const lop_channel *c)
+{
+    return c->name[0] ? c->name : "evidence";
+}
+
+static const char *score_unit(const lop_problem *p)
+{
+    return p->score_unit[0] ? p->score_unit : "units";
+}
+
+static size_t widest(char **labels, size_t n, size_t at_least)
+{
+    for (size_t i = 0; i < n; i++)
+        if (strlen(labels[i]) > at_least)
+            at_least = strlen(labels[i]);
+    return at_least;
+}
+
+static void print_list(FILE *out, char **items, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        fprintf(out, "%s%s", i ? ", " : "", items[i]);
+}
+
+static void print_channel_kind(FILE *out, const lop_channel *c)
+{
+    if (c->kind == LOP_CHANNEL_TABLE) {
+        fprintf(out, "%s: outcomes ", lop_report_channel_name(c));
+        print_list(out, c->outcomes, c->n_outcomes);
+    } else {
+        fprintf(out, "%s: gaussian", lop_report_channel_name(c));
+    }
+    if (c->repeats > 1)
+        fprintf(out, ", %zu repeats", c->repeats);
+}
+
+static void print_summary_line(FILE *out, const lop_problem *p)
+{
+    fprintf(out, "%s\n  %zu states (", p->title, p->n_states);
+    print_list(out, p->state_labels, p->n_states);
+    fprintf(out, "%s%s)", p->unit[0] ? " " : "", p->unit);
+    fprintf(out, "; %zu channel%s", p->n_channels, p->n_channels == 1 ? "" : "s");
+    for (size_t i = 0; i < p->n_channels; i++) {
+        fputs(i ? "; " : " (", out);
+        print_channel_kind(out, &p->channels[i]);
+    }
+    fprintf(out, "%s; %zu actions (", p->n_channels ? ")" : "", p->n_actions);
+    print_list(out, p->actions, p->n_actions);
+    fprintf(out, "); %s in %s\n", lop_problem_orientation(p), score_unit(p));
+    if (p->notes[0])
+        fprintf(out, "  %s\n", p->notes);
+}
+
+static void print_observed(FILE *out, const lop_problem *p)
+{
+    bool any = false;
+    for (size_t i = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        if (!c->n_observed)
+            continue;
+        fprintf(out, "%s%s = ", any ? "; " : "given ", lop_report_channel_name(c));
+        for (size_t k = 0; k < c->n_observed; k++) {
+            if (c->kind == LOP_CHANNEL_TABLE)
+                fprintf(out, "%s%s", k ? ", " : "", c->outcomes[c->observed_outcome[k]]);
+            else
+                fprintf(out, "%s%.6g", k ? ", " : "", c->observed_value[k]);
+        }
+        any = true;
+    }
+    if (!any)
+        fputs("nothing observed yet (the prior alone)", out);
+}
+
+static void print_case(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    const lop_case_result *c = &r->kase;
+    int sw = (int)widest(p->state_labels, p->n_states, 5);
+    int aw = (int)widest(p->actions, p->n_actions, 6);
+    fputs("\nCase: ", out);
+    print_observed(out, p);
+    fprintf(out, "\n  %-*s  %10s  %10s\n", sw, "state", "prior", "posterior");
+    for (size_t s = 0; s < p->n_states; s++)
+        fprintf(out, "  %-*s  %10.6g  %10.6g\n", sw, p->state_labels[s], p->prior[s],
+                c->posterior[s]);
+    fprintf(out, "\n  %-*s  expected %s (%s)\n", aw, "action", lop_problem_orientation(p),
+            score_unit(p));
+    for (size_t a = 0; a < p->n_actions; a++) {
+        fprintf(out, "  %-*s  %12.6g", aw, p->actions[a],
+                lop_problem_oriented(p, c->expected_loss[a]));
+        if (a == c->bayes_action) {
+            if (c->n_tied > 1)
+                fprintf(out, "   <- Bayes action (tied; chosen by the order of [actions])");
+            else
+                fprintf(out, "   <- Bayes action, better than %s by %.6g %s",
+                        p->actions[c->runner_up], c->margin, score_unit(p));
+        } else if (c->n_tied > 1) {
+            for (size_t t = 1; t < c->n_tied; t++)
+                if (c->tied[t] == a)
+                    fputs("   <- tied with the Bayes action", out);
+        }
+        fputc('\n', out);
+    }
+    fprintf(out, "  Value of perfect information for this case: %.6g %s\n", c->evpi,
+            score_unit(p));
+}
+
+/* "swab = flagged" for one repeat, "swab: clean 2, flagged 1" for several. */
+static void print_row(FILE *out, const lop_problem *p, const lop_rule_result *rule, size_t row)
+{
+    size_t col = 0;
+    bool first = true;
+    for (size_t i = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        if (c->kind != LOP_CHANNEL_TABLE)
+            continue;
+        const size_t *counts = &rule->counts[row * rule->n_columns + col];
+        fputs(first ? "" : "; ", out);
+        first = false;
+        if (c->repeats == 1) {
+            for (size_t o = 0; o < c->n_outcomes; o++)
+                if (counts[o])
+                    fprintf(out, "%s = %s", lop_report_channel_name(c), c->outcomes[o]);
+        } else {
+            fprintf(out, "%s:", lop_report_channel_name(c));
+            for (size_t o = 0; o < c->n_outcomes; o++)
+                fprintf(out, "%s %s %zu", o ? "," : "", c->outcomes[o], counts[o]);
+        }
+        col += c->n_outcomes;
+    }
+}
+
+static void print_numeric_rule(FILE *out, const lop_problem *p, const lop_rule_result *rule,
+                               size_t row, const char *indent)
+{
+    const lop_channel *c = &p->channels[rule->numeric_channel];
+    const char *name = lop_report_channel_name(c);
+    const char *what = c->repeats > 1 ? "mean of " : "";
+    const lop_switch_point *prev = NULL;
+    for (size_t k = 0; k < rule->n_switches; k++) {
+        const lop_switch_point *sp = &rule->switches[k];
+        if (sp->row != row)
+            continue;
+        if (prev)
+            fprintf(out, "%s%s%s from %.10g to %.10g: %s\n", indent, what, name, prev->x,
+                    sp->x, p->actions[sp->from]);
+        else
+            fprintf(out, "%s%s%s below %.10g: %s\n", indent, what, name, sp->x,
+                    p->actions[sp->from]);
+        prev = sp;
+    }
+    if (prev)
+        fprintf(out, "%s%s%s above %.10g: %s\n", indent, what, name, prev->x,
+                p->actions[prev->to]);
+    else
+        fprintf(out, "%severy %s%s: %s\n", indent, what, name,
+                p->actions[rule->grid_action[row * rule->n_grid]]);
+}
+
+static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    const lop_rule_result *rule = &r->rule;
+    const char *unit = score_unit(p);
+    fputs("\nRule: the Bayes decision for every possible measurement\n", out);
+    if (!rule->computed) {
+        fprintf(out, "  not computed: %s\n", rule->not_computed_why);
+    } else {
+        size_t shown = rule->n_rows < ROWS_SHOWN ? rule->n_rows : ROWS_SHOWN;
+        for (size_t row = 0; row < shown; row++) {
+            if (rule->n_columns) {
+                fputs("  ", out);
+                print_row(out, p, rule, row);
+                fprintf(out, "  (probability %.4g)", rule->row_probability[row]);
+                if (rule->numeric_channel < 0)
+                    fprintf(out, ": %s\n", p->actions[rule->row_action[row]]);
+                else
+                    fputs(":\n", out);
+            }
+            if (rule->numeric_channel >= 0)
+                print_numeric_rule(out, p, rule, row, rule->n_columns ? "    " : "  ");
+        }
+        if (shown < rule->n_rows)
+            fprintf(out, "  ... %zu more rows (all of them in the JSON output)\n",
+                    rule->n_rows - shown);
+        double bayes = lop_problem_oriented(p, rule->bayes_risk);
+        fprintf(out, "  Bayes %s: %.6g %s per decision\n",
+                p->payoff ? "payoff" : "risk", bayes, unit);
+    }
+    fprintf(out, "  Deciding on the prior alone (always %s): %.6g %s per decision\n",
+            p->actions[rule->prior_only_action],
+            lop_problem_oriented(p, rule->prior_only_risk), unit);
+    if (rule->computed)
+        fprintf(out, "  The evidence is worth %.6g %s per decision\n",
+                rule->prior_only_risk - rule->bayes_risk, unit);
+}
+
+void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    print_summary_line(out, p);
+    print_case(out, p, r);
+    if (r->has_rule)
+        print_rule(out, p, r);
+    if (r->n_warnings) {
+        fputs("\nWarnings\n", out);
+        for (size_t i = 0; i < r->n_warnings; i++)
+            fprintf(out, "  - %s\n", r->warnings[i]);
+    }
+}
+
+void lop_report_problem(FILE *out, const lop_problem *p)
+{
+    print_summary_line(out, p);
+    int sw = (int)widest(p->state_labels, p->n_states, 5);
+    fprintf(out, "\n  %-*s  %10s\n", sw, "state", "prior");
+    for (size_t s = 0; s < p->n_states; s++)
+        fprintf(out, "  %-*s  %10.6g\n", sw, p->state_labels[s], p->prior[s]);
+    for (size_t i = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        fprintf(out, "\n  channel %s (line %d), %zu repeat%s\n", lop_report_channel_name(c),
+                c->line, c->repeats, c->repeats == 1 ? "" : "s");
+        for (size_t s = 0; s < p->n_states; s++) {
+            fprintf(out, "    %-*s", sw, p->state_labels[s]);
+            if (c->kind == LOP_CHANNEL_TABLE)
+                for (size_t o = 0; o < c->n_outcomes; o++)
+                    fprintf(out, "  P(%s) = %.6g", c->outcomes[o],
+                            c->given[s * c->n_outcomes + o]);
+            else
+                fprintf(out, "  N(mean %.6g, sd %.6g)", c->mean[s], c->sd[s]);
+            fputc('\n', out);
+        }
+    }
+    int aw = (int)widest(p->actions, p->n_actions, 6);
+    fprintf(out, "\n  %s (%s)\n  %-*s", lop_problem_orientation(p), score_unit(p), aw, "action");
+    for (size_t s = 0; s < p->n_states; s++)
+        fprintf(out, "  %12s", p->state_labels[s]);
+    fputc('\n', out);
+    for (size_t a = 0; a < p->n_actions; a++) {
+        fprintf(out, "  %-*s", aw, p->actions[a]);
+        for (size_t s = 0; s < p->n_states; s++)
+            fprintf(out, "  %12.6g", lop_problem_oriented(p, lop_problem_loss(p, a, s)));
+        fputc('\n', out);
+    }
+}

@@ -1,0 +1,407 @@
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_roots.h>
+
+#include "lopside/decide.h"
+#include "lopside/evidence.h"
+#include "lopside/posterior.h"
+#include "lopside/rule.h"
+#include "lopside/strutil.h"
+
+/* The automatic measurement grid leaves this much predictive mass outside (format.md). */
+#define GRID_TAIL_MASS 1e-6
+/* Switch points are located to this absolute-plus-relative width. */
+#define SWITCH_TOLERANCE 1e-12
+#define SWITCH_ITERATIONS 200
+/* Beyond the measurement grid, switch points are searched this many sds further out,
+ * where every state's tail mass is below 1e-200. */
+#define FAR_TAIL_SDS 30.0
+
+/* Count vectors of one table channel: counts (n_vectors x n_outcomes) and
+ * log P(counts | s) (n_vectors x n_states). */
+typedef struct {
+    size_t n_vectors;
+    size_t *counts;
+    double *log_p;
+} channel_table;
+
+/* The numeric channel's view of one row: log weights of the states (prior times the
+ * row's likelihood) and scratch space for posteriors. */
+typedef struct {
+    const lop_problem *p;
+    const lop_channel *c;
+    const double *row_logw;
+    double *logw, *post, *el;
+    double loss_scale;        /* for tie tests */
+    size_t a, b;              /* actions compared by the root function */
+} numeric_view;
+
+static void free_tables(channel_table *t, size_t n)
+{
+    for (size_t i = 0; t && i < n; i++) {
+        free(t[i].counts);
+        free(t[i].log_p);
+    }
+    free(t);
+}
+
+/* Next count vector in reverse-lexicographic order; false after the last one. */
+static bool next_counts(size_t *v, size_t k)
+{
+    size_t i = k - 1;
+    while (i-- > 0)
+        if (v[i] > 0)
+            break;
+    if (i == (size_t)-1)
+        return false;
+    size_t tail = v[k - 1];
+    v[k - 1] = 0;
+    v[i]--;
+    v[i + 1] = tail + 1;
+    return true;
+}
+
+static int tabulate_channel(const lop_problem *p, const lop_channel *c, channel_table *t)
+{
+    size_t k = c->n_outcomes;
+    size_t n = (size_t)llround(exp(lgamma((double)(c->repeats + k)) -
+                                   lgamma((double)c->repeats + 1) - lgamma((double)k)));
+    t->counts = malloc(n * k * sizeof *t->counts);
+    t->log_p = malloc(n * p->n_states * sizeof *t->log_p);
+    if (!t->counts || !t->log_p)
+        return -1;
+    size_t *v = t->counts;
+    memset(v, 0, k * sizeof *v);
+    v[0] = c->repeats;
+    size_t i = 0;
+    for (;;) {
+        for (size_t s = 0; s < p->n_states; s++)
+            t->log_p[i * p->n_states + s] = lop_evidence_log_counts(c, s, &t->counts[i * k]);
+        if (i + 1 == n)
+            break;
+        memcpy(&t->counts[(i + 1) * k], &t->counts[i * k], k * sizeof *v);
+        if (!next_counts(&t->counts[(i + 1) * k], k))
+            break;
+        i++;
+    }
+    t->n_vectors = i + 1;
+    return 0;
+}
+
+/* Posterior at measurement x of the numeric channel, then expected losses. */
+static void posterior_at(numeric_view *v, double x)
+{
+    const lop_problem *p = v->p;
+    for (size_t s = 0; s < p->n_states; s++)
+        v->logw[s] = v->row_logw[s] + lop_evidence_log_mean(v->c, s, x, v->c->repeats);
+    lop_posterior_normalize(v->logw, p->n_states, v->post);
+    lop_decide_expected(p, v->post, v->el);
+}
+
+static size_t best_at(numeric_view *v, double x)
+{
+    posterior_at(v, x);
+    return lop_decide_best(v->el, v->p->n_actions);
+}
+
+/* Posterior expected loss of action a minus that of b at x: negative where a is better. */
+static double difference_at(double x, void *param)
+{
+    numeric_view *v = param;
+    posterior_at(v, x);
+    return v->el[v->a] - v->el[v->b];
+}
+
+/* Root of difference_at in [lo, hi], where a is best at lo and b at hi (Brent). */
+static double refine_switch(numeric_view *v, double lo, double hi)
+{
+    gsl_function f = {difference_at, v};
+    double flo = difference_at(lo, v), fhi = difference_at(hi, v);
+    if (flo == 0)
+        return lo;
+    if (fhi == 0 || flo * fhi > 0)
+        return hi;
+    gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+    if (!s || gsl_root_fsolver_set(s, &f, lo, hi) != GSL_SUCCESS) {
+        gsl_root_fsolver_free(s);
+        return 0.5 * (lo + hi);
+    }
+    double root = 0.5 * (lo + hi);
+    for (int it = 0; it < SWITCH_ITERATIONS; it++) {
+        if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
+            break;
+        root = gsl_root_fsolver_root(s);
+        double a = gsl_root_fsolver_x_lower(s), b = gsl_root_fsolver_x_upper(s);
+        if (gsl_root_test_interval(a, b, SWITCH_TOLERANCE, SWITCH_TOLERANCE) == GSL_SUCCESS)
+            break;
+    }
+    gsl_root_fsolver_free(s);
+    return root;
+}
+
+typedef struct {
+    lop_switch_point *items;
+    size_t n, cap;
+} switch_list;
+
+static int push_switch(switch_list *list, double x, size_t from, size_t to, size_t row)
+{
+    if (list->n == list->cap) {
+        size_t cap = list->cap ? list->cap * 2 : 16;
+        lop_switch_point *grown = realloc(list->items, cap * sizeof *grown);
+        if (!grown)
+            return -1;
+        list->items = grown;
+        list->cap = cap;
+    }
+    list->items[list->n++] = (lop_switch_point){x, from, to, row};
+    return 0;
+}
+
+/* Finds every change of action in [lo, hi] (a best at lo, b at hi); a third action
+ * best at the a/b crossing splits the bracket, so crossings come out in order. */
+static int find_switches(numeric_view *v, double lo, double hi, size_t a, size_t b,
+                         size_t row, switch_list *out, int depth)
+{
+    v->a = a;
+    v->b = b;
+    double x = refine_switch(v, lo, hi);
+    size_t c = best_at(v, x);
+    if (c == a || c == b || depth > (int)v->p->n_actions ||
+        lop_decide_tied(v->el[c], v->el[a], v->loss_scale))
+        return push_switch(out, x, a, b, row);
+    if (find_switches(v, lo, x, a, c, row, out, depth + 1) != 0)
+        return -1;
+    return find_switches(v, x, hi, c, b, row, out, depth + 1);
+}
+
+/* P(lo < X < hi) for X ~ N(mean, sd), from the tail that keeps precision. */
+static double gaussian_mass(double lo, double hi, double mean, double sd)
+{
+    double zl = (lo - mean) / sd, zh = (hi - mean) / sd;
+    if (zl > 0)
+        return gsl_cdf_ugaussian_Q(zl) - gsl_cdf_ugaussian_Q(zh);
+    return gsl_cdf_ugaussian_P(zh) - gsl_cdf_ugaussian_P(zl);
+}
+
+static void measurement_grid(const lop_problem *p, const lop_channel *c, double *grid,
+                             size_t m)
+{
+    double lo = c->grid_from, hi = c->grid_to;
+    if (!c->grid_given) {
+        /* Each state leaves at most GRID_TAIL_MASS/2 per side outside. */
+        double z = gsl_cdf_ugaussian_Qinv(0.5 * GRID_TAIL_MASS);
+        lo = INFINITY;
+        hi = -INFINITY;
+        for (size_t s = 0; s < p->n_states; s++) {
+            double sd = lop_evidence_sd_of_mean(c, s);
+            lo = fmin(lo, c->mean[s] - z * sd);
+            hi = fmax(hi, c->mean[s] + z * sd);
+        }
+    }
+    for (size_t i = 0; i < m; i++)
+        grid[i] = lo + (hi - lo) * (double)i / (double)(m - 1);
+}
+
+/* Decides every grid point of one row, finds its switch points and returns its exact
+ * contribution to the Bayes risk: the loss integrated between switch points. */
+static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
+                             switch_list *switches, double *risk)
+{
+    const lop_problem *p = v->p;
+    size_t m = rule->n_grid;
+    size_t *act = &rule->grid_action[row * m];
+    for (size_t i = 0; i < m; i++)
+        act[i] = best_at(v, rule->grid[i]);
+    /* The grid leaves a sliver of predictive mass outside, where unequal sds can still
+     * turn the decision: look there too, out to where no state has mass left. */
+    double reach = 0;
+    for (size_t s = 0; s < p->n_states; s++)
+        reach = fmax(reach, FAR_TAIL_SDS * lop_evidence_sd_of_mean(v->c, s));
+    double far_lo = rule->grid[0] - reach, far_hi = rule->grid[m - 1] + reach;
+    size_t a_lo = best_at(v, far_lo), a_hi = best_at(v, far_hi);
+    size_t first = switches->n;
+    if (a_lo != act[0] &&
+        find_switches(v, far_lo, rule->grid[0], a_lo, act[0], row, switches, 0) != 0)
+        return -1;
+    for (size_t i = 1; i < m; i++)
+        if (act[i] != act[i - 1] &&
+            find_switches(v, rule->grid[i - 1], rule->grid[i], act[i - 1], act[i], row,
+                          switches, 0) != 0)
+            return -1;
+    if (a_hi != act[m - 1] &&
+        find_switches(v, rule->grid[m - 1], far_hi, act[m - 1], a_hi, row, switches, 0) != 0)
+        return -1;
+
+    double lo = -INFINITY, total = 0;
+    size_t a = a_lo;
+    for (size_t k = first; k <= switches->n; k++) {
+        double hi = k < switches->n ? switches->items[k].x : INFINITY;
+        for (size_t s = 0; s < p->n_states; s++) {
+            double w = exp(v->row_logw[s]);
+            if (w > 0)
+                total += w * lop_problem_loss(p, a, s) *
+                         gaussian_mass(lo, hi, v->c->mean[s], lop_evidence_sd_of_mean(v->c, s));
+        }
+        if (k < switches->n) {
+            a = switches->items[k].to;
+            lo = hi;
+        }
+    }
+    *risk = total;
+    return 0;
+}
+
+static lop_status not_computed(lop_results *r, lop_error *err, const char *why)
+{
+    r->rule.computed = false;
+    r->rule.not_computed_why = lop_strdup(why);
+    if (!r->rule.not_computed_why || lop_results_warn(r, "rule not computed: %s", why) != 0)
+        return lop_error_run(err, "out of memory");
+    return LOP_OK;
+}
+
+lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
+{
+    lop_rule_result *rule = &r->rule;
+    double *el = malloc(p->n_actions * sizeof *el);
+    if (!el)
+        return lop_error_run(err, "out of memory");
+    lop_decide_expected(p, p->prior, el);
+    rule->prior_only_action = lop_decide_best(el, p->n_actions);
+    rule->prior_only_risk = el[rule->prior_only_action];
+    free(el);
+    if (p->n_channels == 0)
+        return LOP_OK;
+    r->has_rule = true;
+    if (lop_problem_numeric_channels(p) > 1)
+        return not_computed(r, err,
+                            "the rule table covers at most one numeric channel; the case is "
+                            "still exact");
+
+    size_t n_table = p->n_channels - lop_problem_numeric_channels(p);
+    channel_table *tables = calloc(n_table ? n_table : 1, sizeof *tables);
+    size_t *table_channel = calloc(n_table ? n_table : 1, sizeof *table_channel);
+    double *logw = malloc(p->n_states * sizeof *logw);
+    double *row_logw = malloc(p->n_states * sizeof *row_logw);
+    double *post = malloc(p->n_states * sizeof *post);
+    double *scratch = malloc(p->n_states * sizeof *scratch);
+    double *row_el = malloc(p->n_actions * sizeof *row_el);
+    size_t *digit = calloc(n_table ? n_table : 1, sizeof *digit);
+    switch_list switches = {0};
+    lop_status st = LOP_OK;
+    if (!tables || !table_channel || !logw || !row_logw || !post || !scratch || !row_el ||
+        !digit)
+        goto no_memory;
+
+    rule->n_rows = 1;
+    rule->n_columns = 0;
+    for (size_t i = 0, t = 0; i < p->n_channels; i++) {
+        const lop_channel *c = &p->channels[i];
+        if (c->kind != LOP_CHANNEL_TABLE) {
+            rule->numeric_channel = (long)i;
+            continue;
+        }
+        table_channel[t] = i;
+        if (tabulate_channel(p, c, &tables[t]) != 0)
+            goto no_memory;
+        rule->n_rows *= tables[t].n_vectors;
+        rule->n_columns += c->n_outcomes;
+        t++;
+    }
+    const lop_channel *numeric =
+        rule->numeric_channel >= 0 ? &p->channels[rule->numeric_channel] : NULL;
+    if (numeric) {
+        rule->n_grid = numeric->grid_points;
+        if ((double)rule->n_rows * (double)rule->n_grid > LOP_RULE_CELLS_MAX) {
+            st = not_computed(r, err, "the rule table would exceed its size limit; lower "
+                                      "grid_points or repeats");
+            goto done;
+        }
+        rule->grid = malloc(rule->n_grid * sizeof *rule->grid);
+        rule->grid_action = malloc(rule->n_rows * rule->n_grid * sizeof *rule->grid_action);
+        if (!rule->grid || !rule->grid_action)
+            goto no_memory;
+        measurement_grid(p, numeric, rule->grid, rule->n_grid);
+    }
+    rule->counts = malloc((rule->n_columns ? rule->n_rows * rule->n_columns : 1) *
+                          sizeof *rule->counts);
+    rule->row_probability = malloc(rule->n_rows * sizeof *rule->row_probability);
+    rule->row_action = malloc(rule->n_rows * sizeof *rule->row_action);
+    rule->row_expected_loss = malloc(rule->n_rows * sizeof *rule->row_expected_loss);
+    if (!rule->counts || !rule->row_probability || !rule->row_action ||
+        !rule->row_expected_loss)
+        goto no_memory;
+
+    numeric_view view = {p, numeric, row_logw, logw, post, row_el,
+                         lop_decide_loss_scale(p), 0, 0};
+    rule->bayes_risk = 0;
+    for (size_t row = 0; row < rule->n_rows; row++) {
+        /* Row = one count vector per table channel, the last channel varying fastest. */
+        for (size_t s = 0; s < p->n_states; s++)
+            row_logw[s] = log(p->prior[s]);
+        size_t col = 0;
+        for (size_t t = 0; t < n_table; t++) {
+            const lop_channel *c = &p->channels[table_channel[t]];
+            const channel_table *tab = &tables[t];
+            for (size_t s = 0; s < p->n_states; s++)
+                row_logw[s] += tab->log_p[digit[t] * p->n_states + s];
+            memcpy(&rule->counts[row * rule->n_columns + col],
+                   &tab->counts[digit[t] * c->n_outcomes], c->n_outcomes * sizeof(size_t));
+            col += c->n_outcomes;
+        }
+        for (size_t t = n_table; t-- > 0;) {
+            if (++digit[t] < tables[t].n_vectors)
+                break;
+            digit[t] = 0;
+        }
+        double log_row = lop_posterior_normalize(row_logw, p->n_states, scratch);
+        rule->row_probability[row] = exp(log_row);
+
+        lop_decide_expected(p, scratch, row_el);
+        rule->row_action[row] = lop_decide_best(row_el, p->n_actions);
+        rule->row_expected_loss[row] = row_el[rule->row_action[row]];
+        if (!numeric) {
+            rule->bayes_risk += rule->row_probability[row] * rule->row_expected_loss[row];
+            continue;
+        }
+        double risk;
+        if (solve_numeric_row(&view, rule, row, &switches, &risk) != 0)
+            goto no_memory;
+        rule->bayes_risk += risk;
+    }
+    rule->switches = switches.items;
+    rule->n_switches = switches.n;
+    switches.items = NULL;
+    rule->computed = true;
+    if (numeric && numeric->repeats > 1) {
+        bool common_sd = true;
+        for (size_t s = 1; s < p->n_states; s++)
+            common_sd &= numeric->sd[s] == numeric->sd[0];
+        if (!common_sd &&
+            lop_results_warn(r,
+                             "[%s]: the rule decides on the mean of %zu repeats, which is not "
+                             "a sufficient statistic when sd differs between states; the "
+                             "case uses every observed value",
+                             numeric->section, numeric->repeats) != 0)
+            goto no_memory;
+    }
+    goto done;
+no_memory:
+    st = lop_error_run(err, "out of memory while tabulating the rule");
+done:
+    free_tables(tables, n_table);
+    free(table_channel);
+    free(logw);
+    free(row_logw);
+    free(post);
+    free(scratch);
+    free(row_el);
+    free(digit);
+    free(switches.items);
+    return st;
+}

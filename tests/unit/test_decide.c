@@ -1,0 +1,74 @@
+#include "lopside/decide.h"
+#include "testutil.h"
+
+/* Screening with 1% prevalence, 80% sensitivity and a 9.6% false-positive rate:
+ * after a positive result the posterior is 0.008 / (0.008 + 0.09504) = 0.0776
+ * (Eddy 1982; Gigerenzer & Hoffrage 1995; from memory). */
+static const char screening[] =
+    "[problem]\ntitle = screening\n"
+    "[states]\nlabels = healthy, ill\n"
+    "[prior]\nweights = 0.99, 0.01\n"
+    "[evidence.test]\noutcomes = negative, positive\n"
+    "given.healthy = 0.904, 0.096\ngiven.ill = 0.2, 0.8\nobserved = positive\n"
+    "[actions]\nlabels = wait, treat\n"
+    "[loss]\nwait = 0, 10\ntreat = 1, 1\n";
+
+START_TEST(screening_posterior_after_a_positive_result)
+{
+    lop_problem *p = test_problem(screening);
+    lop_results *r = test_solve(p);
+    ck_assert_close(r->kase.posterior[1], 0.008 / (0.008 + 0.99 * 0.096), 1e-14);
+    ck_assert(fabs(r->kase.posterior[1] - 0.078) < 0.001);
+    /* wait: 10·0.0776 = 0.776 < treat: 1, so waiting is the Bayes action. */
+    ck_assert_uint_eq(r->kase.bayes_action, 0);
+    ck_assert_close(r->kase.margin, 1 - 10 * r->kase.posterior[1], 1e-14);
+    /* EVPI = E[loss of wait] - E[min loss] = 10·q - 1·q (perfect info treats the ill). */
+    ck_assert_close(r->kase.evpi, 9 * r->kase.posterior[1], 1e-14);
+    lop_results_free(r);
+    lop_problem_free(p);
+}
+END_TEST
+
+START_TEST(ties_go_to_the_earlier_action_and_are_reported)
+{
+    lop_problem *p = test_problem("[problem]\ntitle = t\n[states]\nlabels = a, b\n"
+                                  "[prior]\nweights = 1, 1\n[actions]\nlabels = x, y, z\n"
+                                  "[payoff]\nx = 3, 0\ny = 9, 9\nz = 0, 18\n");
+    lop_results *r = test_solve(p);
+    /* Payoffs 1.5, 9, 9: y and z tie; y comes first in [actions]. */
+    ck_assert_uint_eq(r->kase.bayes_action, 1);
+    ck_assert_uint_eq(r->kase.n_tied, 2);
+    ck_assert_uint_eq(r->kase.tied[1], 2);
+    ck_assert_double_eq(r->kase.margin, 0);
+    lop_results_free(r);
+    lop_problem_free(p);
+}
+END_TEST
+
+START_TEST(payoff_files_keep_their_orientation)
+{
+    lop_problem *p = test_problem("[problem]\ntitle = t\n[states]\nlabels = a, b\n"
+                                  "[prior]\nweights = 3, 1\n[actions]\nlabels = x, y\n"
+                                  "[payoff]\nx = 4, 0\ny = 0, 8\n");
+    lop_results *r = test_solve(p);
+    /* Expected payoffs: x = 3, y = 2; stored as losses -3 and -2. */
+    ck_assert_uint_eq(r->kase.bayes_action, 0);
+    ck_assert_close(lop_problem_oriented(p, r->kase.expected_loss[0]), 3, 1e-15);
+    ck_assert_close(r->kase.margin, 1, 1e-15);
+    /* With the state known: 0.75·4 + 0.25·8 = 5, so EVPI = 5 - 3. */
+    ck_assert_close(r->kase.evpi, 2, 1e-15);
+    lop_results_free(r);
+    lop_problem_free(p);
+}
+END_TEST
+
+Suite *suite_decide(void)
+{
+    Suite *s = suite_create("decide");
+    TCase *tc = tcase_create("decide");
+    tcase_add_test(tc, screening_posterior_after_a_positive_result);
+    tcase_add_test(tc, ties_go_to_the_earlier_action_and_are_reported);
+    tcase_add_test(tc, payoff_files_keep_their_orientation);
+    suite_add_tcase(s, tc);
+    return s;
+}

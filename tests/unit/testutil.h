@@ -1,0 +1,38 @@
+/* Helpers shared by the unit tests: tolerance checks and problems from text. */
+#ifndef LOPSIDE_TESTUTIL_H
+#define LOPSIDE_TESTUTIL_H
+
+#include <check.h>
+#include <math.h>
+#include <string.h>
+
+#include "lopside/config.h"
+#include "lopside/engine.h"
+#include "lopside/problem.h"
+
+/* |got - want| <= tol·max(1, |want|): relative for large values, absolute near zero. */
+#define ck_assert_close(got, want, tol)                                                    \
+    do {                                                                                   \
+        double got_ = (got), want_ = (want), tol_ = (tol);                                 \
+        ck_assert_msg(fabs(got_ - want_) <= tol_ * fmax(1.0, fabs(want_)),                 \
+                      "%s = %.17g, expected %.17g (tolerance %g)", #got, got_, want_, tol_); \
+    } while (0)
+
+/* Returns the problem built from text; fails the test (with the error) when invalid. */
+lop_problem *test_problem(const char *text);
+
+/* Returns the error status of building text, with the error in *err. */
+lop_status test_problem_error(const char *text, lop_error *err);
+
+/* Returns solved results of p; fails the test on error. */
+lop_results *test_solve(const lop_problem *p);
+
+Suite *suite_config(void);
+Suite *suite_parse(void);
+Suite *suite_posterior(void);
+Suite *suite_decide(void);
+Suite *suite_rule(void);
+Suite *suite_outfile(void);
+Suite *suite_strutil(void);
+
+#endif

@@ -269,6 +269,45 @@ const lop_entry *lop_config_find(const lop_config *cfg, const char *section,
     return NULL;
 }
 
+lop_config *lop_config_copy(const lop_config *cfg)
+{
+    lop_config *copy = calloc(1, sizeof *copy);
+    if (!copy)
+        return NULL;
+    copy->path = lop_strdup(cfg->path);
+    copy->text = malloc(cfg->text_len + 1);
+    copy->entries = calloc(cfg->n_entries ? cfg->n_entries : 1, sizeof *copy->entries);
+    copy->sections = calloc(cfg->n_sections ? cfg->n_sections : 1, sizeof *copy->sections);
+    if (!copy->path || !copy->text || !copy->entries || !copy->sections)
+        goto fail;
+    memcpy(copy->text, cfg->text, cfg->text_len + 1);
+    copy->text_len = cfg->text_len;
+    for (size_t i = 0; i < cfg->n_sections; i++) {
+        copy->sections[i].line = cfg->sections[i].line;
+        copy->sections[i].name = lop_strdup(cfg->sections[i].name);
+        copy->n_sections++;
+        if (!copy->sections[i].name)
+            goto fail;
+    }
+    for (size_t i = 0; i < cfg->n_entries; i++) {
+        const lop_entry *e = &cfg->entries[i];
+        lop_entry *c = &copy->entries[i];
+        *c = *e;
+        c->section = lop_strdup(e->section);
+        c->key = lop_strdup(e->key);
+        c->value = lop_strdup(e->value);
+        c->value_lines = malloc(e->n_value_lines * sizeof *c->value_lines);
+        copy->n_entries++;
+        if (!c->section || !c->key || !c->value || !c->value_lines)
+            goto fail;
+        memcpy(c->value_lines, e->value_lines, e->n_value_lines * sizeof *c->value_lines);
+    }
+    return copy;
+fail:
+    lop_config_free(copy);
+    return NULL;
+}
+
 int lop_entry_line_at(const lop_entry *e, size_t offset)
 {
     size_t piece = 0;

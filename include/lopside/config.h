@@ -43,6 +43,9 @@ lop_config *lop_config_read_file(const char *path, lop_error *err);
 lop_config *lop_config_read_text(const char *name, const char *text, size_t len,
                                  lop_error *err);
 
+/* Returns a deep copy of cfg, or NULL when memory runs out. */
+lop_config *lop_config_copy(const lop_config *cfg);
+
 /* Returns the first entry of section/key, or NULL. */
 const lop_entry *lop_config_find(const lop_config *cfg, const char *section,
                                  const char *key);

@@ -33,7 +33,7 @@ UNIT_SRC := $(wildcard tests/unit/*.c)
 UNIT_OBJ := $(patsubst tests/unit/%.c,$(BUILD)/unit/%.o,$(UNIT_SRC))
 HEADERS  := $(wildcard include/lopside/*.h) $(wildcard tests/unit/*.h)
 
-.PHONY: all demo test check-asan install clean deps deps-test build-tests run-tests
+.PHONY: all demo test check-asan bench install clean deps deps-test build-tests run-tests
 
 all: $(BUILD)/lopside
 
@@ -89,6 +89,11 @@ check-asan: deps deps-test
 	ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=halt_on_error=1:print_stacktrace=1 \
 	$(MAKE) --no-print-directory BUILD=build/asan OPT="-O1 -g -fno-omit-frame-pointer" \
 	    SAN="-fsanitize=address,undefined -fno-sanitize-recover=all" run-tests
+
+# Timings of an optimized build on problems of our own (tests/bench/run.sh).
+bench: deps
+	$(MAKE) --no-print-directory BUILD=build/bench OPT="-O3 -march=native -g" build/bench/lopside
+	LOPSIDE=build/bench/lopside sh tests/bench/run.sh
 
 install: all
 	install -D -m 755 $(BUILD)/lopside $(DESTDIR)$(PREFIX)/bin/lopside

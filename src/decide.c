@@ -56,6 +56,45 @@ double lop_decide_perfect(const lop_problem *p, const double *w)
     return sum;
 }
 
+double lop_decide_perfect_estimate(const lop_problem *p, const double *w)
+{
+    const lop_curve *c = &p->curve;
+    /* The error the curve likes best: 0 for every curve but `points`, whose minimum
+     * lies on a knot. */
+    double best_e = 0;
+    if (c->kind == LOP_CURVE_POINTS) {
+        size_t k = 0;
+        for (size_t i = 1; i < c->n_points; i++)
+            if (c->value[i] < c->value[k])
+                k = i;
+        best_e = c->error[k];
+    }
+    double lo = p->estimates[0], hi = p->estimates[p->n_estimates - 1], sum = 0;
+    for (size_t s = 0; s < p->n_states; s++) {
+        if (w[s] == 0)
+            continue;
+        double x = p->state_values[s];
+        double e = c->relative ? x * (1 + best_e) : x + best_e;
+        sum += w[s] * lop_curve_loss(c, fmin(hi, fmax(lo, e)), x);
+    }
+    return sum;
+}
+
+static lop_status decide_estimate(const lop_problem *p, lop_case_result *c, lop_error *err)
+{
+    lop_curve_work *w = lop_curve_work_new(&p->curve, p->state_values, p->n_states,
+                                           p->estimates, p->n_estimates);
+    if (!w)
+        return lop_error_run(err, "out of memory preparing the loss curve");
+    lop_curve_expected(w, c->posterior, c->estimate_curve);
+    c->bayes_estimate = lop_curve_bayes(w, c->posterior, &c->bayes_estimate_loss);
+    lop_curve_work_free(w);
+    c->evpi = c->bayes_estimate_loss - lop_decide_perfect_estimate(p, c->posterior);
+    if (c->evpi < 0) /* rounding only */
+        c->evpi = 0;
+    return LOP_OK;
+}
+
 lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err)
 {
     lop_case_result *c = &r->kase;
@@ -69,6 +108,11 @@ lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err)
     free(logw);
     if (norm == -INFINITY)
         return lop_error_run(err, "the observed values have no likelihood under any state");
+    c->numeric = lop_problem_numeric_states(p);
+    if (c->numeric)
+        lop_posterior_summarize(p, c->posterior, &c->summary);
+    if (p->estimate)
+        return decide_estimate(p, c, err);
 
     lop_decide_expected(p, c->posterior, c->expected_loss);
     c->bayes_action = lop_decide_best(c->expected_loss, p->n_actions);
@@ -80,7 +124,7 @@ lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err)
     for (size_t a = 0; a < p->n_actions; a++) {
         if (a == c->bayes_action)
             continue;
-        if (c->expected_loss[a] < c->expected_loss[c->runner_up] || c->runner_up == c->bayes_action)
+        if (c->expected_loss[a] < c->expected_loss[c->runner_up])
             c->runner_up = a;
         if (lop_decide_tied(c->expected_loss[a], best, scale))
             c->tied[c->n_tied++] = a;

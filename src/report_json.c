@@ -37,26 +37,47 @@ static json_t *problem_json(const lop_problem *p)
     json_object_set_new(obj, "unit", json_string(p->unit));
     json_object_set_new(obj, "score_unit", json_string(p->score_unit));
     json_t *states = json_object();
-    if (p->states_kind == LOP_STATES_VALUES)
-        json_object_set_new(states, "values", real_array(p->state_values, p->n_states));
-    else
+    if (p->states_kind == LOP_STATES_LABELS)
         json_object_set_new(states, "labels", string_array(p->state_labels, p->n_states));
+    else
+        json_object_set_new(states, p->states_kind == LOP_STATES_GRID ? "grid" : "values",
+                            real_array(p->state_values, p->n_states));
     json_object_set_new(obj, "states", states);
     json_object_set_new(obj, "prior", real_array(p->prior, p->n_states));
-    json_object_set_new(obj, "actions", string_array(p->actions, p->n_actions));
+    if (p->states_kind == LOP_STATES_GRID) {
+        json_object_set_new(obj, "step", json_real(p->step));
+        json_object_set_new(obj, "prior_outside_grid", json_real(p->prior_outside));
+    }
+    if (p->estimate)
+        json_object_set_new(obj, "estimates", real_array(p->estimates, p->n_estimates));
+    else
+        json_object_set_new(obj, "actions", string_array(p->actions, p->n_actions));
     json_t *channels = json_array();
     for (size_t i = 0; i < p->n_channels; i++) {
         const lop_channel *c = &p->channels[i];
         json_t *ch = json_object();
         json_object_set_new(ch, "name", json_string(lop_report_channel_name(c)));
+        static const char *const noise[] = {"gaussian", "scalar", "lognormal", "poisson",
+                                            "binomial"};
         json_object_set_new(ch, "kind",
-                            json_string(c->kind == LOP_CHANNEL_TABLE ? "table" : "gaussian"));
+                            json_string(c->kind == LOP_CHANNEL_TABLE ? "table" : noise[c->noise]));
         json_object_set_new(ch, "repeats", json_integer((json_int_t)c->repeats));
         if (c->kind == LOP_CHANNEL_TABLE)
             json_object_set_new(ch, "outcomes", string_array(c->outcomes, c->n_outcomes));
         json_array_append_new(channels, ch);
     }
     json_object_set_new(obj, "channels", channels);
+    return obj;
+}
+
+static json_t *summary_json(const lop_summary *m, json_t *obj)
+{
+    json_object_set_new(obj, "mean", json_real(m->mean));
+    json_object_set_new(obj, "sd", json_real(m->sd));
+    json_object_set_new(obj, "median", json_real(m->median));
+    json_object_set_new(obj, "mode", json_real(m->mode));
+    json_object_set_new(obj, "q05", json_real(m->q05));
+    json_object_set_new(obj, "q95", json_real(m->q95));
     return obj;
 }
 
@@ -67,10 +88,26 @@ static json_t *case_json(const lop_problem *p, const lop_results *r)
     json_t *post = json_object();
     if (p->states_kind == LOP_STATES_VALUES)
         json_object_set_new(post, "values", real_array(p->state_values, p->n_states));
-    else
+    else if (p->states_kind == LOP_STATES_LABELS)
         json_object_set_new(post, "labels", string_array(p->state_labels, p->n_states));
-    json_object_set_new(post, "p", real_array(c->posterior, p->n_states));
+    if (p->states_kind != LOP_STATES_GRID)
+        json_object_set_new(post, "p", real_array(c->posterior, p->n_states));
+    if (c->numeric)
+        summary_json(&c->summary, post);
     json_object_set_new(obj, "posterior", post);
+    if (p->states_kind == LOP_STATES_GRID)
+        json_object_set_new(obj, "posterior_grid", real_array(c->posterior, p->n_states));
+    if (p->estimate) {
+        json_object_set_new(obj, "bayes_action", json_real(c->bayes_estimate));
+        json_object_set_new(obj, "bayes_estimate", json_real(c->bayes_estimate));
+        set_score(obj, p, "expected_loss", "expected_payoff", c->bayes_estimate_loss);
+        json_t *curve = json_object();
+        json_object_set_new(curve, "estimate", real_array(p->estimates, p->n_estimates));
+        json_object_set_new(curve, "expected_loss", real_array(c->estimate_curve, p->n_estimates));
+        json_object_set_new(obj, "curve", curve);
+        json_object_set_new(obj, "evpi", json_real(c->evpi));
+        return obj;
+    }
     json_t *actions = json_array();
     for (size_t a = 0; a < p->n_actions; a++) {
         json_t *row = json_object();
@@ -123,8 +160,9 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
     json_t *obj = json_object();
     json_object_set_new(obj, "computed", json_boolean(rule->computed));
     set_score(obj, p, "prior_only_risk", "prior_only_payoff", rule->prior_only_risk);
-    json_object_set_new(obj, "prior_only_action",
-                        json_string(p->actions[rule->prior_only_action]));
+    if (!p->estimate)
+        json_object_set_new(obj, "prior_only_action",
+                            json_string(p->actions[rule->prior_only_action]));
     if (!rule->computed) {
         json_object_set_new(obj, "bayes_risk", json_null());
         json_object_set_new(obj, "not_computed", json_string(rule->not_computed_why));
@@ -134,6 +172,9 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
     set_score(obj, p, "bayes_risk", "bayes_payoff", rule->bayes_risk);
     json_object_set_new(obj, "value_of_evidence",
                         json_real(rule->prior_only_risk - rule->bayes_risk));
+    json_object_set_new(obj, "exact", json_boolean(rule->exact));
+    if (!rule->exact)
+        json_object_set_new(obj, "coverage", json_real(rule->coverage));
     json_t *switches = json_array();
     for (size_t k = 0; k < rule->n_switches; k++) {
         const lop_switch_point *sp = &rule->switches[k];
@@ -165,19 +206,52 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
         json_object_set_new(grid, "channel",
                             json_string(lop_report_channel_name(
                                 &p->channels[rule->numeric_channel])));
+        json_object_set_new(grid, "counts", json_boolean(rule->count_grid));
         json_object_set_new(grid, "x", real_array(rule->grid, rule->n_grid));
         json_t *rows = json_array();
         for (size_t row = 0; row < rule->n_rows; row++) {
-            json_t *acts = json_array();
-            for (size_t i = 0; i < rule->n_grid; i++)
+            json_t *decisions = p->estimate ? real_array(&rule->grid_estimate[row * rule->n_grid],
+                                                         rule->n_grid)
+                                            : json_array();
+            for (size_t i = 0; !p->estimate && i < rule->n_grid; i++)
                 json_array_append_new(
-                    acts, json_string(p->actions[rule->grid_action[row * rule->n_grid + i]]));
-            json_array_append_new(rows, acts);
+                    decisions,
+                    json_string(p->actions[rule->grid_action[row * rule->n_grid + i]]));
+            json_array_append_new(rows, decisions);
         }
-        json_object_set_new(grid, "action", rows);
+        json_object_set_new(grid, p->estimate ? "estimate" : "action", rows);
+        if (rule->grid_weight) {
+            json_object_set_new(grid, "probability", real_array(rule->grid_weight, rule->n_grid));
+            json_object_set_new(grid, "expected_loss", real_array(rule->grid_loss, rule->n_grid));
+        }
         json_object_set_new(obj, "grid", grid);
     }
     return obj;
+}
+
+static json_t *rules_json(const lop_problem *p, const lop_results *r)
+{
+    static const char *const kinds[] = {"posterior_mean", "posterior_median",
+                                        "posterior_mode", "max_likelihood", "threshold",
+                                        "believed"};
+    json_t *arr = json_array();
+    for (size_t k = 0; k < r->n_compared; k++) {
+        const lop_compared_rule *c = &r->compared[k];
+        json_t *obj = json_object();
+        json_object_set_new(obj, "name", json_string(c->name));
+        json_object_set_new(obj, "kind", json_string(kinds[p->rules[k].kind]));
+        json_object_set_new(obj, "computed", json_boolean(c->computed));
+        if (c->computed) {
+            set_score(obj, p, "risk", "payoff", c->risk);
+            json_object_set_new(obj, "regret", json_real(c->regret));
+        } else {
+            json_object_set_new(obj, "not_computed", json_string(c->not_computed_why
+                                                                     ? c->not_computed_why
+                                                                     : "the rule was not computed"));
+        }
+        json_array_append_new(arr, obj);
+    }
+    return arr;
 }
 
 lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
@@ -197,6 +271,7 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     json_object_set_new(root, "problem", problem_json(p));
     json_object_set_new(root, "case", case_json(p, r));
     json_object_set_new(root, "rule", r->has_rule ? rule_json(p, r) : json_null());
+    json_object_set_new(root, "rules", rules_json(p, r));
     json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));
 
     lop_outfile out;

@@ -1,10 +1,16 @@
 #include <math.h>
 #include <string.h>
 
+#include "lopside/posterior.h"
 #include "lopside/report.h"
 
-/* Rows of the rule table shown at a terminal; JSON has them all. */
+/* Rows of a rule table shown at a terminal; JSON has them all. */
 #define ROWS_SHOWN 24
+/* Measurement points shown for a rule of estimates. */
+#define ESTIMATE_ROWS 11
+
+static const char *const noise_names[] = {"gaussian", "scalar", "lognormal", "poisson",
+                                          "binomial"};
 
 const char *lop_report_channel_name(const lop_channel *c)
 {
@@ -18,7 +24,7 @@ static const char *score_unit(const lop_problem *p)
 
 static size_t widest(char **labels, size_t n, size_t at_least)
 {
-    for (size_t i = 0; i < n; i++)
+    for (size_t i = 0; labels && i < n; i++)
         if (strlen(labels[i]) > at_least)
             at_least = strlen(labels[i]);
     return at_least;
@@ -36,25 +42,45 @@ static void print_channel_kind(FILE *out, const lop_channel *c)
         fprintf(out, "%s: outcomes ", lop_report_channel_name(c));
         print_list(out, c->outcomes, c->n_outcomes);
     } else {
-        fprintf(out, "%s: gaussian", lop_report_channel_name(c));
+        fprintf(out, "%s: %s noise", lop_report_channel_name(c), noise_names[c->noise]);
     }
     if (c->repeats > 1)
         fprintf(out, ", %zu repeats", c->repeats);
 }
 
+static void print_states(FILE *out, const lop_problem *p)
+{
+    const char *unit = p->unit[0] ? p->unit : "";
+    if (p->states_kind == LOP_STATES_GRID) {
+        fprintf(out, "%zu grid states from %.6g to %.6g%s%s (step %.6g)", p->n_states,
+                p->state_values[0], p->state_values[p->n_states - 1], unit[0] ? " " : "",
+                unit, p->step);
+        return;
+    }
+    fprintf(out, "%zu states (", p->n_states);
+    print_list(out, p->state_labels, p->n_states);
+    fprintf(out, "%s%s)", unit[0] ? " " : "", unit);
+}
+
 static void print_summary_line(FILE *out, const lop_problem *p)
 {
-    fprintf(out, "%s\n  %zu states (", p->title, p->n_states);
-    print_list(out, p->state_labels, p->n_states);
-    fprintf(out, "%s%s)", p->unit[0] ? " " : "", p->unit);
+    fprintf(out, "%s\n  ", p->title);
+    print_states(out, p);
     fprintf(out, "; %zu channel%s", p->n_channels, p->n_channels == 1 ? "" : "s");
     for (size_t i = 0; i < p->n_channels; i++) {
         fputs(i ? "; " : " (", out);
         print_channel_kind(out, &p->channels[i]);
     }
-    fprintf(out, "%s; %zu actions (", p->n_channels ? ")" : "", p->n_actions);
-    print_list(out, p->actions, p->n_actions);
-    fprintf(out, "); %s in %s\n", lop_problem_orientation(p), score_unit(p));
+    fputs(p->n_channels ? ")" : "", out);
+    if (p->estimate) {
+        fprintf(out, "; estimates from %.6g to %.6g", p->estimates[0],
+                p->estimates[p->n_estimates - 1]);
+    } else {
+        fprintf(out, "; %zu actions (", p->n_actions);
+        print_list(out, p->actions, p->n_actions);
+        fputc(')', out);
+    }
+    fprintf(out, "; %s in %s\n", lop_problem_orientation(p), score_unit(p));
     if (p->notes[0])
         fprintf(out, "  %s\n", p->notes);
 }
@@ -79,17 +105,27 @@ static void print_observed(FILE *out, const lop_problem *p)
         fputs("nothing observed yet (the prior alone)", out);
 }
 
-static void print_case(FILE *out, const lop_problem *p, const lop_results *r)
+static void print_posterior(FILE *out, const lop_problem *p, const lop_case_result *c)
 {
-    const lop_case_result *c = &r->kase;
-    int sw = (int)widest(p->state_labels, p->n_states, 5);
+    if (p->states_kind != LOP_STATES_GRID) {
+        int sw = (int)widest(p->state_labels, p->n_states, 5);
+        fprintf(out, "\n  %-*s  %10s  %10s\n", sw, "state", "prior", "posterior");
+        for (size_t s = 0; s < p->n_states; s++)
+            fprintf(out, "  %-*s  %10.6g  %10.6g\n", sw, p->state_labels[s], p->prior[s],
+                    c->posterior[s]);
+    }
+    if (c->numeric) {
+        const lop_summary *m = &c->summary;
+        const char *u = p->unit[0] ? p->unit : "";
+        fprintf(out, "  posterior: mean %.6g%s%s, sd %.6g, median %.6g, mode %.6g, "
+                     "90%% between %.6g and %.6g\n",
+                m->mean, u[0] ? " " : "", u, m->sd, m->median, m->mode, m->q05, m->q95);
+    }
+}
+
+static void print_choices(FILE *out, const lop_problem *p, const lop_case_result *c)
+{
     int aw = (int)widest(p->actions, p->n_actions, 6);
-    fputs("\nCase: ", out);
-    print_observed(out, p);
-    fprintf(out, "\n  %-*s  %10s  %10s\n", sw, "state", "prior", "posterior");
-    for (size_t s = 0; s < p->n_states; s++)
-        fprintf(out, "  %-*s  %10.6g  %10.6g\n", sw, p->state_labels[s], p->prior[s],
-                c->posterior[s]);
     fprintf(out, "\n  %-*s  expected %s (%s)\n", aw, "action", lop_problem_orientation(p),
             score_unit(p));
     for (size_t a = 0; a < p->n_actions; a++) {
@@ -97,17 +133,32 @@ static void print_case(FILE *out, const lop_problem *p, const lop_results *r)
                 lop_problem_oriented(p, c->expected_loss[a]));
         if (a == c->bayes_action) {
             if (c->n_tied > 1)
-                fprintf(out, "   <- Bayes action (tied; chosen by the order of [actions])");
+                fputs("   <- Bayes action (tied; chosen by the order of [actions])", out);
             else
                 fprintf(out, "   <- Bayes action, better than %s by %.6g %s",
                         p->actions[c->runner_up], c->margin, score_unit(p));
-        } else if (c->n_tied > 1) {
+        } else {
             for (size_t t = 1; t < c->n_tied; t++)
                 if (c->tied[t] == a)
                     fputs("   <- tied with the Bayes action", out);
         }
         fputc('\n', out);
     }
+}
+
+static void print_case(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    const lop_case_result *c = &r->kase;
+    fputs("\nCase: ", out);
+    print_observed(out, p);
+    fputc('\n', out);
+    print_posterior(out, p, c);
+    if (p->estimate)
+        fprintf(out, "\n  Bayes estimate: %.8g%s%s, expected %s %.6g %s\n", c->bayes_estimate,
+                p->unit[0] ? " " : "", p->unit, lop_problem_orientation(p),
+                lop_problem_oriented(p, c->bayes_estimate_loss), score_unit(p));
+    else
+        print_choices(out, p, c);
     fprintf(out, "  Value of perfect information for this case: %.6g %s\n", c->evpi,
             score_unit(p));
 }
@@ -137,18 +188,31 @@ static void print_row(FILE *out, const lop_problem *p, const lop_rule_result *ru
     }
 }
 
+static const char *summary_word(const lop_channel *c)
+{
+    if (c->repeats == 1)
+        return "";
+    if (c->noise == LOP_NOISE_LOGNORMAL)
+        return "geometric mean of ";
+    return c->noise == LOP_NOISE_POISSON || c->noise == LOP_NOISE_BINOMIAL ? "sum of "
+                                                                           : "mean of ";
+}
+
 static void print_numeric_rule(FILE *out, const lop_problem *p, const lop_rule_result *rule,
                                size_t row, const char *indent)
 {
     const lop_channel *c = &p->channels[rule->numeric_channel];
     const char *name = lop_report_channel_name(c);
-    const char *what = c->repeats > 1 ? "mean of " : "";
+    const char *what = summary_word(c);
     const lop_switch_point *prev = NULL;
     for (size_t k = 0; k < rule->n_switches; k++) {
         const lop_switch_point *sp = &rule->switches[k];
         if (sp->row != row)
             continue;
-        if (prev)
+        if (rule->count_grid)
+            fprintf(out, "%s%s%s %s %.10g: %s\n", indent, what, name, prev ? "from" : "below",
+                    prev ? prev->x : sp->x, p->actions[sp->from]);
+        else if (prev)
             fprintf(out, "%s%s%s from %.10g to %.10g: %s\n", indent, what, name, prev->x,
                     sp->x, p->actions[sp->from]);
         else
@@ -157,11 +221,25 @@ static void print_numeric_rule(FILE *out, const lop_problem *p, const lop_rule_r
         prev = sp;
     }
     if (prev)
-        fprintf(out, "%s%s%s above %.10g: %s\n", indent, what, name, prev->x,
-                p->actions[prev->to]);
+        fprintf(out, "%s%s%s %s %.10g: %s\n", indent, what, name,
+                rule->count_grid ? "from" : "above", prev->x, p->actions[prev->to]);
     else
         fprintf(out, "%severy %s%s: %s\n", indent, what, name,
                 p->actions[rule->grid_action[row * rule->n_grid]]);
+}
+
+static void print_estimate_rule(FILE *out, const lop_problem *p, const lop_rule_result *rule)
+{
+    const lop_channel *c = &p->channels[rule->numeric_channel];
+    fprintf(out, "  %16s  %16s\n", lop_report_channel_name(c), "Bayes estimate");
+    size_t rows = rule->n_grid < ESTIMATE_ROWS ? rule->n_grid : ESTIMATE_ROWS;
+    for (size_t k = 0; k < rows; k++) {
+        size_t m = rows == 1 ? 0 : k * (rule->n_grid - 1) / (rows - 1);
+        fprintf(out, "  %16.6g  %16.6g\n", rule->grid[m], rule->grid_estimate[m]);
+    }
+    if (rows < rule->n_grid)
+        fprintf(out, "  (%zu of %zu measurement points; all of them in the JSON output)\n",
+                rows, rule->n_grid);
 }
 
 static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
@@ -171,6 +249,8 @@ static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
     fputs("\nRule: the Bayes decision for every possible measurement\n", out);
     if (!rule->computed) {
         fprintf(out, "  not computed: %s\n", rule->not_computed_why);
+    } else if (p->estimate) {
+        print_estimate_rule(out, p, rule);
     } else {
         size_t shown = rule->n_rows < ROWS_SHOWN ? rule->n_rows : ROWS_SHOWN;
         for (size_t row = 0; row < shown; row++) {
@@ -189,16 +269,50 @@ static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
         if (shown < rule->n_rows)
             fprintf(out, "  ... %zu more rows (all of them in the JSON output)\n",
                     rule->n_rows - shown);
-        double bayes = lop_problem_oriented(p, rule->bayes_risk);
-        fprintf(out, "  Bayes %s: %.6g %s per decision\n",
-                p->payoff ? "payoff" : "risk", bayes, unit);
     }
-    fprintf(out, "  Deciding on the prior alone (always %s): %.6g %s per decision\n",
-            p->actions[rule->prior_only_action],
-            lop_problem_oriented(p, rule->prior_only_risk), unit);
+    if (rule->computed) {
+        fprintf(out, "  Bayes %s: %.6g %s per decision", p->payoff ? "payoff" : "risk",
+                lop_problem_oriented(p, rule->bayes_risk), unit);
+        if (!rule->exact && rule->n_columns == 0)
+            fprintf(out, " (summed over %zu measurement %s)", rule->n_grid,
+                    rule->count_grid ? "counts" : "cells");
+        fputc('\n', out);
+    }
+    if (p->estimate)
+        fprintf(out, "  Deciding on the prior alone: %.6g %s per decision\n",
+                lop_problem_oriented(p, rule->prior_only_risk), unit);
+    else
+        fprintf(out, "  Deciding on the prior alone (always %s): %.6g %s per decision\n",
+                p->actions[rule->prior_only_action],
+                lop_problem_oriented(p, rule->prior_only_risk), unit);
     if (rule->computed)
         fprintf(out, "  The evidence is worth %.6g %s per decision\n",
                 rule->prior_only_risk - rule->bayes_risk, unit);
+}
+
+static const char *const kind_names[] = {"posterior_mean", "posterior_median",
+                                         "posterior_mode", "max_likelihood", "threshold",
+                                         "believed"};
+
+static void print_compared(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    size_t w = 10;
+    for (size_t k = 0; k < r->n_compared; k++)
+        if (strlen(r->compared[k].name) > w)
+            w = strlen(r->compared[k].name);
+    fprintf(out, "\nOther rules, judged under the problem as given (%s)\n", score_unit(p));
+    fprintf(out, "  %-*s  %-16s  %12s  %12s\n", (int)w, "rule", "kind",
+            p->payoff ? "payoff" : "risk", "regret");
+    fprintf(out, "  %-*s  %-16s  %12.6g  %12s\n", (int)w, "bayes", "Bayes rule",
+            lop_problem_oriented(p, r->rule.bayes_risk), "0");
+    for (size_t k = 0; k < r->n_compared; k++) {
+        const lop_compared_rule *c = &r->compared[k];
+        fprintf(out, "  %-*s  %-16s", (int)w, c->name, kind_names[p->rules[k].kind]);
+        if (c->computed)
+            fprintf(out, "  %12.6g  %12.6g\n", lop_problem_oriented(p, c->risk), c->regret);
+        else
+            fprintf(out, "  not computed: %s\n", c->not_computed_why);
+    }
 }
 
 void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
@@ -207,6 +321,8 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
     print_case(out, p, r);
     if (r->has_rule)
         print_rule(out, p, r);
+    if (r->n_compared && r->rule.computed)
+        print_compared(out, p, r);
     if (r->n_warnings) {
         fputs("\nWarnings\n", out);
         for (size_t i = 0; i < r->n_warnings; i++)
@@ -214,28 +330,50 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
     }
 }
 
+static void print_channel_detail(FILE *out, const lop_problem *p, const lop_channel *c, int sw)
+{
+    fprintf(out, "\n  channel %s (line %d), %zu repeat%s\n", lop_report_channel_name(c), c->line,
+            c->repeats, c->repeats == 1 ? "" : "s");
+    size_t shown = p->states_kind == LOP_STATES_GRID ? 0 : p->n_states;
+    for (size_t s = 0; s < shown; s++) {
+        fprintf(out, "    %-*s", sw, p->state_labels[s]);
+        if (c->kind == LOP_CHANNEL_TABLE)
+            for (size_t o = 0; o < c->n_outcomes; o++)
+                fprintf(out, "  P(%s) = %.6g", c->outcomes[o], c->given[s * c->n_outcomes + o]);
+        else
+            fprintf(out, "  %s around %.6g (spread %.6g)", noise_names[c->noise],
+                    c->center[s], c->spread[s]);
+        fputc('\n', out);
+    }
+    if (p->states_kind == LOP_STATES_GRID)
+        fprintf(out, "    %s noise around r(s): r = %.6g at the first state, %.6g at the last\n",
+                noise_names[c->noise], c->center[0], c->center[p->n_states - 1]);
+}
+
 void lop_report_problem(FILE *out, const lop_problem *p)
 {
     print_summary_line(out, p);
     int sw = (int)widest(p->state_labels, p->n_states, 5);
-    fprintf(out, "\n  %-*s  %10s\n", sw, "state", "prior");
-    for (size_t s = 0; s < p->n_states; s++)
-        fprintf(out, "  %-*s  %10.6g\n", sw, p->state_labels[s], p->prior[s]);
-    for (size_t i = 0; i < p->n_channels; i++) {
-        const lop_channel *c = &p->channels[i];
-        fprintf(out, "\n  channel %s (line %d), %zu repeat%s\n", lop_report_channel_name(c),
-                c->line, c->repeats, c->repeats == 1 ? "" : "s");
-        for (size_t s = 0; s < p->n_states; s++) {
-            fprintf(out, "    %-*s", sw, p->state_labels[s]);
-            if (c->kind == LOP_CHANNEL_TABLE)
-                for (size_t o = 0; o < c->n_outcomes; o++)
-                    fprintf(out, "  P(%s) = %.6g", c->outcomes[o],
-                            c->given[s * c->n_outcomes + o]);
-            else
-                fprintf(out, "  N(mean %.6g, sd %.6g)", c->mean[s], c->sd[s]);
-            fputc('\n', out);
-        }
+    if (p->states_kind != LOP_STATES_GRID) {
+        fprintf(out, "\n  %-*s  %10s\n", sw, "state", "prior");
+        for (size_t s = 0; s < p->n_states; s++)
+            fprintf(out, "  %-*s  %10.6g\n", sw, p->state_labels[s], p->prior[s]);
+    } else {
+        lop_summary m;
+        lop_posterior_summarize(p, p->prior, &m);
+        fprintf(out, "\n  prior on the grid: mean %.6g, sd %.6g, 90%% between %.6g and %.6g; "
+                     "%.3g of it beyond the grid\n",
+                m.mean, m.sd, m.q05, m.q95, p->prior_outside);
     }
+    for (size_t i = 0; i < p->n_channels; i++)
+        print_channel_detail(out, p, &p->channels[i], sw);
+    if (p->estimate) {
+        fprintf(out, "\n  estimates: %zu points from %.6g to %.6g\n", p->n_estimates,
+                p->estimates[0], p->estimates[p->n_estimates - 1]);
+        return;
+    }
+    if (p->states_kind == LOP_STATES_GRID)
+        return;
     int aw = (int)widest(p->actions, p->n_actions, 6);
     fprintf(out, "\n  %s (%s)\n  %-*s", lop_problem_orientation(p), score_unit(p), aw, "action");
     for (size_t s = 0; s < p->n_states; s++)

@@ -9,11 +9,19 @@ lop_results *lop_results_new(const lop_problem *p)
     lop_results *r = calloc(1, sizeof *r);
     if (!r)
         return NULL;
+    size_t n_actions = p->n_actions ? p->n_actions : 1;
     r->kase.posterior = calloc(p->n_states, sizeof *r->kase.posterior);
-    r->kase.expected_loss = calloc(p->n_actions, sizeof *r->kase.expected_loss);
-    r->kase.tied = calloc(p->n_actions, sizeof *r->kase.tied);
+    r->kase.expected_loss = calloc(n_actions, sizeof *r->kase.expected_loss);
+    r->kase.tied = calloc(n_actions, sizeof *r->kase.tied);
     r->rule.numeric_channel = -1;
-    if (!r->kase.posterior || !r->kase.expected_loss || !r->kase.tied) {
+    if (p->estimate)
+        r->kase.estimate_curve = calloc(p->n_estimates, sizeof *r->kase.estimate_curve);
+    r->n_compared = p->n_rules;
+    r->compared = calloc(p->n_rules ? p->n_rules : 1, sizeof *r->compared);
+    for (size_t i = 0; r->compared && i < p->n_rules; i++)
+        r->compared[i].name = p->rules[i].name;
+    if (!r->kase.posterior || !r->kase.expected_loss || !r->kase.tied || !r->compared ||
+        (p->estimate && !r->kase.estimate_curve)) {
         lop_results_free(r);
         return NULL;
     }
@@ -48,6 +56,12 @@ void lop_results_free(lop_results *r)
     free(r->kase.posterior);
     free(r->kase.expected_loss);
     free(r->kase.tied);
+    free(r->kase.estimate_curve);
+    for (size_t i = 0; r->compared && i < r->n_compared; i++) {
+        free(r->compared[i].not_computed_why);
+        free(r->compared[i].grid_decision);
+    }
+    free(r->compared);
     lop_rule_result *rule = &r->rule;
     free(rule->not_computed_why);
     free(rule->counts);
@@ -56,6 +70,9 @@ void lop_results_free(lop_results *r)
     free(rule->row_expected_loss);
     free(rule->grid);
     free(rule->grid_action);
+    free(rule->grid_estimate);
+    free(rule->grid_weight);
+    free(rule->grid_loss);
     free(rule->switches);
     for (size_t i = 0; i < r->n_warnings; i++)
         free(r->warnings[i]);

@@ -11,6 +11,7 @@
 #include "lopside/posterior.h"
 #include "lopside/rule.h"
 #include "lopside/strutil.h"
+#include "rule_private.h"
 
 /* The automatic measurement grid leaves this much predictive mass outside (format.md). */
 #define GRID_TAIL_MASS 1e-6
@@ -97,7 +98,7 @@ static void posterior_at(numeric_view *v, double x)
 {
     const lop_problem *p = v->p;
     for (size_t s = 0; s < p->n_states; s++)
-        v->logw[s] = v->row_logw[s] + lop_evidence_log_mean(v->c, s, x, v->c->repeats);
+        v->logw[s] = v->row_logw[s] + lop_evidence_log_summary(v->c, s, x, v->c->repeats);
     lop_posterior_normalize(v->logw, p->n_states, v->post);
     lop_decide_expected(p, v->post, v->el);
 }
@@ -179,28 +180,18 @@ static int find_switches(numeric_view *v, double lo, double hi, size_t a, size_t
     return find_switches(v, x, hi, c, b, row, out, depth + 1);
 }
 
-/* P(lo < X < hi) for X ~ N(mean, sd), from the tail that keeps precision. */
-static double gaussian_mass(double lo, double hi, double mean, double sd)
-{
-    double zl = (lo - mean) / sd, zh = (hi - mean) / sd;
-    if (zl > 0)
-        return gsl_cdf_ugaussian_Q(zl) - gsl_cdf_ugaussian_Q(zh);
-    return gsl_cdf_ugaussian_P(zh) - gsl_cdf_ugaussian_P(zl);
-}
-
 static void measurement_grid(const lop_problem *p, const lop_channel *c, double *grid,
                              size_t m)
 {
     double lo = c->grid_from, hi = c->grid_to;
     if (!c->grid_given) {
         /* Each state leaves at most GRID_TAIL_MASS/2 per side outside. */
-        double z = gsl_cdf_ugaussian_Qinv(0.5 * GRID_TAIL_MASS);
         lo = INFINITY;
         hi = -INFINITY;
         for (size_t s = 0; s < p->n_states; s++) {
-            double sd = lop_evidence_sd_of_mean(c, s);
-            lo = fmin(lo, c->mean[s] - z * sd);
-            hi = fmax(hi, c->mean[s] + z * sd);
+            lo = fmin(lo, lop_evidence_summary_quantile(c, s, 0.5 * GRID_TAIL_MASS, c->repeats));
+            hi = fmax(hi, lop_evidence_summary_quantile(c, s, 1 - 0.5 * GRID_TAIL_MASS,
+                                                        c->repeats));
         }
     }
     for (size_t i = 0; i < m; i++)
@@ -221,7 +212,7 @@ static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
      * turn the decision: look there too, out to where no state has mass left. */
     double reach = 0;
     for (size_t s = 0; s < p->n_states; s++)
-        reach = fmax(reach, FAR_TAIL_SDS * lop_evidence_sd_of_mean(v->c, s));
+        reach = fmax(reach, FAR_TAIL_SDS * v->c->spread[s] / sqrt((double)v->c->repeats));
     double far_lo = rule->grid[0] - reach, far_hi = rule->grid[m - 1] + reach;
     size_t a_lo = best_at(v, far_lo), a_hi = best_at(v, far_hi);
     size_t first = switches->n;
@@ -245,7 +236,7 @@ static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
             double w = exp(v->row_logw[s]);
             if (w > 0)
                 total += w * lop_problem_loss(p, a, s) *
-                         gaussian_mass(lo, hi, v->c->mean[s], lop_evidence_sd_of_mean(v->c, s));
+                         lop_evidence_summary_mass(v->c, s, lo, hi, v->c->repeats);
         }
         if (k < switches->n) {
             a = switches->items[k].to;
@@ -256,7 +247,7 @@ static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
     return 0;
 }
 
-static lop_status not_computed(lop_results *r, lop_error *err, const char *why)
+lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why)
 {
     r->rule.computed = false;
     r->rule.not_computed_why = lop_strdup(why);
@@ -265,24 +256,139 @@ static lop_status not_computed(lop_results *r, lop_error *err, const char *why)
     return LOP_OK;
 }
 
+/* Risk under p of deciding actions[k] on the k-th interval between sorted cut points
+ * of the one gaussian channel c: the loss integrated exactly with the normal CDF. */
+static double risk_of_intervals(const lop_problem *p, const lop_channel *c, const double *cuts,
+                                const size_t *actions, size_t n_cuts)
+{
+    double total = 0, lo = -INFINITY;
+    for (size_t k = 0; k <= n_cuts; k++) {
+        double hi = k < n_cuts ? cuts[k] : INFINITY;
+        for (size_t s = 0; s < p->n_states; s++)
+            if (p->prior[s] > 0)
+                total += p->prior[s] * lop_problem_loss(p, actions[k], s) *
+                         lop_evidence_summary_mass(c, s, lo, hi, c->repeats);
+        lo = hi;
+    }
+    return total;
+}
+
+/* [rule.NAME] comparisons on the exact path: a threshold cuts once; a believed rule
+ * cuts where its own Bayes rule switches. Both are integrated exactly. */
+static lop_status compare_exact(const lop_problem *p, lop_results *r, lop_error *err)
+{
+    const lop_channel *c = r->rule.numeric_channel >= 0 ? &p->channels[r->rule.numeric_channel]
+                                                        : NULL;
+    for (size_t k = 0; k < p->n_rules; k++) {
+        const lop_rule_spec *spec = &p->rules[k];
+        lop_compared_rule *cr = &r->compared[k];
+        if (!c || r->rule.n_columns) {
+            cr->not_computed_why = lop_strdup("comparisons need one numeric channel and no "
+                                              "outcome-table channel");
+            if (!cr->not_computed_why)
+                return lop_error_run(err, "out of memory");
+            continue;
+        }
+        if (spec->kind == LOP_RULE_KIND_THRESHOLD) {
+            size_t acts[2] = {0, 1};
+            cr->risk = risk_of_intervals(p, c, &spec->at, acts, 1);
+        } else {
+            lop_results *br = lop_results_new(spec->believed);
+            if (!br)
+                return lop_error_run(err, "out of memory");
+            if (lop_rule_solve(spec->believed, br, err) != LOP_OK) {
+                lop_results_free(br);
+                return err->status;
+            }
+            const lop_rule_result *b = &br->rule;
+            size_t n = b->n_switches;
+            double *cuts = malloc((n + 1) * sizeof *cuts);
+            size_t *acts = malloc((n + 1) * sizeof *acts);
+            if (!cuts || !acts || !b->computed || b->n_rows != 1) {
+                free(cuts);
+                free(acts);
+                lop_results_free(br);
+                cr->not_computed_why = lop_strdup("the believed problem's rule could not be "
+                                                  "tabulated");
+                if (!cr->not_computed_why)
+                    return lop_error_run(err, "out of memory");
+                continue;
+            }
+            acts[0] = n ? b->switches[0].from : b->grid_action[0];
+            for (size_t i = 0; i < n; i++) {
+                cuts[i] = b->switches[i].x;
+                acts[i + 1] = b->switches[i].to;
+            }
+            cr->risk = risk_of_intervals(p, c, cuts, acts, n);
+            free(cuts);
+            free(acts);
+            lop_results_free(br);
+        }
+        cr->regret = cr->risk - r->rule.bayes_risk;
+        cr->computed = true;
+    }
+    return LOP_OK;
+}
+
+/* Generic path: a grid of states, estimates, or a numeric channel that is not gaussian. */
+static bool needs_grid_path(const lop_problem *p)
+{
+    if (p->states_kind == LOP_STATES_GRID || p->estimate)
+        return true;
+    for (size_t i = 0; i < p->n_channels; i++)
+        if (p->channels[i].kind == LOP_CHANNEL_NOISE &&
+            p->channels[i].noise != LOP_NOISE_GAUSSIAN)
+            return true;
+    return false;
+}
+
+static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
+                                           lop_error *err);
+
 lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
 {
     lop_rule_result *rule = &r->rule;
-    double *el = malloc(p->n_actions * sizeof *el);
-    if (!el)
-        return lop_error_run(err, "out of memory");
-    lop_decide_expected(p, p->prior, el);
-    rule->prior_only_action = lop_decide_best(el, p->n_actions);
-    rule->prior_only_risk = el[rule->prior_only_action];
-    free(el);
+    if (!p->estimate) {
+        double *el = malloc(p->n_actions * sizeof *el);
+        if (!el)
+            return lop_error_run(err, "out of memory");
+        lop_decide_expected(p, p->prior, el);
+        rule->prior_only_action = lop_decide_best(el, p->n_actions);
+        rule->prior_only_risk = el[rule->prior_only_action];
+        free(el);
+    } else {
+        lop_curve_work *w = lop_curve_work_new(&p->curve, p->state_values, p->n_states,
+                                               p->estimates, p->n_estimates);
+        if (!w)
+            return lop_error_run(err, "out of memory");
+        lop_curve_bayes(w, p->prior, &rule->prior_only_risk);
+        lop_curve_work_free(w);
+    }
     if (p->n_channels == 0)
         return LOP_OK;
     r->has_rule = true;
     if (lop_problem_numeric_channels(p) > 1)
-        return not_computed(r, err,
-                            "the rule table covers at most one numeric channel; the case is "
-                            "still exact");
+        return lop_rule_not_computed(r, err,
+                                     "the rule covers at most one numeric channel; the case "
+                                     "is still exact");
+    if (!needs_grid_path(p)) {
+        lop_status st = solve_table_and_gaussian(p, r, err);
+        return st == LOP_OK && rule->computed ? compare_exact(p, r, err) : st;
+    }
+    if (lop_problem_numeric_channels(p) != 1 || p->n_channels != 1)
+        return lop_rule_not_computed(r, err,
+                                     "a rule over an outcome table together with a "
+                                     "non-gaussian or grid channel is not supported; the "
+                                     "case is still exact");
+    return lop_rule_solve_grid(p, r, err);
+}
 
+/* Finite states, choices: every combination of outcome counts of the table channels,
+ * times the grid of at most one gaussian channel, integrated exactly. */
+static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
+                                           lop_error *err)
+{
+    lop_rule_result *rule = &r->rule;
     size_t n_table = p->n_channels - lop_problem_numeric_channels(p);
     channel_table *tables = calloc(n_table ? n_table : 1, sizeof *tables);
     size_t *table_channel = calloc(n_table ? n_table : 1, sizeof *table_channel);
@@ -318,7 +424,7 @@ lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
     if (numeric) {
         rule->n_grid = numeric->grid_points;
         if ((double)rule->n_rows * (double)rule->n_grid > LOP_RULE_CELLS_MAX) {
-            st = not_computed(r, err, "the rule table would exceed its size limit; lower "
+            st = lop_rule_not_computed(r, err, "the rule table would exceed its size limit; lower "
                                       "grid_points or repeats");
             goto done;
         }
@@ -378,10 +484,11 @@ lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
     rule->n_switches = switches.n;
     switches.items = NULL;
     rule->computed = true;
+    rule->exact = true;
     if (numeric && numeric->repeats > 1) {
         bool common_sd = true;
         for (size_t s = 1; s < p->n_states; s++)
-            common_sd &= numeric->sd[s] == numeric->sd[0];
+            common_sd &= numeric->spread[s] == numeric->spread[0];
         if (!common_sd &&
             lop_results_warn(r,
                              "[%s]: the rule decides on the mean of %zu repeats, which is not "

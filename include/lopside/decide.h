@@ -25,6 +25,9 @@ double lop_decide_loss_scale(const lop_problem *p);
 /* Returns the expected loss with the state known: sum over states of w[s]·min_a loss(a, s). */
 double lop_decide_perfect(const lop_problem *p, const double *w);
 
+/* Returns the expected loss of estimating with the state known, under weights w. */
+double lop_decide_perfect_estimate(const lop_problem *p, const double *w);
+
 /* Returns LOP_OK after filling r->kase: posterior given every observed value, expected
  * loss per action, Bayes action, runner-up, ties and EVPI. */
 lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err);

@@ -16,6 +16,7 @@ typedef struct {
 typedef struct {
     const char *kind;
     bool named;           /* [kind.NAME] allowed */
+    bool name_required;   /* only [kind.NAME] */
     bool supported;
     const char *help;
 } lop_section_spec;

@@ -8,8 +8,16 @@
 
 #include "lopside/problem.h"
 
+/* A distribution over numeric states, in the state's unit. */
+typedef struct {
+    double mean, sd, median, mode, q05, q95;
+} lop_summary;
+
 typedef struct {
     double *posterior;        /* n_states */
+    bool numeric;             /* numeric states: summary is set */
+    lop_summary summary;
+    /* choices */
     double *expected_loss;    /* n_actions */
     size_t bayes_action;
     size_t runner_up;         /* best of the other actions */
@@ -17,6 +25,10 @@ typedef struct {
     size_t *tied;             /* actions tied with the Bayes action, bayes_action first */
     size_t n_tied;
     double evpi;              /* expected value of perfect information for the case */
+    /* estimates */
+    double bayes_estimate;
+    double bayes_estimate_loss;   /* its expected loss */
+    double *estimate_curve;       /* expected loss of every estimate of the estimate grid */
 } lop_case_result;
 
 typedef struct {
@@ -42,6 +54,12 @@ typedef struct {
     size_t n_grid;
     double *grid;             /* measurement points (mean of the repeats) */
     size_t *grid_action;      /* n_rows x n_grid */
+    double *grid_estimate;    /* estimates: the Bayes estimate at each grid point */
+    double *grid_weight;      /* P(measurement cell) before any evidence (generic path) */
+    double *grid_loss;        /* posterior expected loss of the decision at each point */
+    bool count_grid;          /* the grid is the whole numbers of a count channel */
+    double coverage;          /* sum of grid_weight: predictive mass on the grid */
+    bool exact;               /* risk integrated exactly (finite states, gaussian) */
     lop_switch_point *switches;
     size_t n_switches;
 
@@ -50,10 +68,22 @@ typedef struct {
     size_t prior_only_action;
 } lop_rule_result;
 
+/* A [rule.NAME] judged under the true problem. */
+typedef struct {
+    const char *name;         /* borrowed from the problem */
+    bool computed;
+    char *not_computed_why;
+    double risk;
+    double regret;            /* risk minus the Bayes risk, >= 0 up to grid error */
+    double *grid_decision;    /* per grid point: action index or estimate (generic path) */
+} lop_compared_rule;
+
 typedef struct {
     lop_case_result kase;
     bool has_rule;            /* the problem has evidence */
     lop_rule_result rule;
+    lop_compared_rule *compared;  /* one per problem rule */
+    size_t n_compared;
     char **warnings;
     size_t n_warnings;
 } lop_results;

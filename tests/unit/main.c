@@ -45,6 +45,8 @@ int main(void)
     srunner_add_suite(runner, suite_decide());
     srunner_add_suite(runner, suite_rule());
     srunner_add_suite(runner, suite_outfile());
+    srunner_add_suite(runner, suite_curve());
+    srunner_add_suite(runner, suite_prior());
     srunner_run_all(runner, CK_NORMAL);
     int run = srunner_ntests_run(runner);
     int failed = srunner_ntests_failed(runner);

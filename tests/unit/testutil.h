@@ -34,5 +34,7 @@ Suite *suite_decide(void);
 Suite *suite_rule(void);
 Suite *suite_outfile(void);
 Suite *suite_strutil(void);
+Suite *suite_curve(void);
+Suite *suite_prior(void);
 
 #endif

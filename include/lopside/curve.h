@@ -1,0 +1,105 @@
+/* Loss curves of an estimate of a continuous state on a grid: the loss of one
+ * estimate, the expected loss of every estimate of a grid under a posterior by a fast
+ * path (moments, prefix sums, a sliding window, pieces, or FFT correlation), the same by
+ * the direct double loop, and the Bayes estimate. No I/O; no allocation per call. */
+#ifndef LOPSIDE_CURVE_H
+#define LOPSIDE_CURVE_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+typedef enum {
+    LOP_CURVE_SQUARED,
+    LOP_CURVE_ABSOLUTE,
+    LOP_CURVE_LINLIN,
+    LOP_CURVE_QUADQUAD,
+    LOP_CURVE_LINEX,
+    LOP_CURVE_TOLERANCE,
+    LOP_CURVE_POINTS,
+} lop_curve_kind;
+
+/* A loss curve of the error e = estimate - state, or (relative) e = (estimate - state) /
+ * state with every state > 0. Payoff curves are stored negated, as losses (format.md). */
+typedef struct {
+    lop_curve_kind kind;
+    double scale;            /* squared, absolute, linex: > 0 (the file's default is 1) */
+    double under, over;      /* linlin, quadquad: > 0; under for e < 0, over for e > 0 */
+    double a;                /* linex: != 0 */
+    double below, above;     /* tolerance: inside when -below <= e <= above */
+    double inside, outside;  /* tolerance: the losses inside and outside the band */
+    size_t n_points;         /* points: >= 1 knots, error increasing; linear between, */
+    const double *error;     /* flat outside; the arrays are borrowed (the workspace */
+    const double *value;     /* keeps its own copy) */
+    bool relative;
+} lop_curve;
+
+/* How lop_curve_expected computes, fixed when the workspace is made. */
+typedef enum {
+    LOP_CURVE_BY_MOMENTS,     /* squared, linex: closed forms in posterior moments, O(S + E) */
+    LOP_CURVE_BY_PREFIX_SUMS, /* absolute, linlin, quadquad: O(S + E) */
+    LOP_CURVE_BY_WINDOW,      /* tolerance: O(S + E); relative with below >= 1: O(E log S) */
+    LOP_CURVE_BY_PIECES,      /* points: prefix sums per piece, O((S + E) P); relative
+                                 estimates <= 0 by the direct sum, O(S) each */
+    LOP_CURVE_BY_FFT,         /* points on one uniform lattice when cheaper: O(N log N) */
+    LOP_CURVE_BY_DIRECT,      /* relative linex (no closed form): O(E S) */
+} lop_curve_method;
+
+typedef struct lop_curve_work lop_curve_work;
+typedef struct lop_curve_fft lop_curve_fft;
+
+/* Returns NULL when c is a usable curve, else a sentence saying what is wrong. */
+const char *lop_curve_invalid(const lop_curve *c);
+
+/* Returns the loss of error e (e already divided by the state for relative curves). */
+double lop_curve_error_loss(const lop_curve *c, double e);
+
+/* Returns the loss of estimating state by estimate (relative: state > 0). */
+double lop_curve_loss(const lop_curve *c, double estimate, double state);
+
+/* Returns a workspace for c on the given grids (both strictly increasing and finite;
+ * states > 0 when c is relative), or NULL when c is invalid, a grid is not, or memory
+ * runs out. The workspace copies c, its knots and both grids. One per thread. */
+lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, size_t n_states,
+                                   const double *estimates, size_t n_estimates);
+
+/* Frees w; NULL is a no-op. */
+void lop_curve_work_free(lop_curve_work *w);
+
+/* Returns the path lop_curve_expected takes for w. */
+lop_curve_method lop_curve_work_method(const lop_curve_work *w);
+
+/* Writes el[j] = sum_s p[s]·loss(estimates[j], states[s]) for every estimate j, by the
+ * fast path (p: n_states probabilities summing to 1; el: n_estimates). */
+void lop_curve_expected(lop_curve_work *w, const double *p, double *el);
+
+/* Writes the same el by the direct O(E·S) double loop: the reference for the fast paths. */
+void lop_curve_expected_direct(const lop_curve_work *w, const double *p, double *el);
+
+/* Returns the Bayes estimate under p and writes its expected loss to *el_min (may be
+ * NULL). squared, absolute, linlin, quadquad, linex: the exact minimizer over the interval
+ * [estimates[0], estimates[E-1]] (the middle of the minimizing interval when the minimum
+ * is flat; relative linex: the root of the derivative by Brent's method, to 1e-14 of the
+ * interval); tolerance, points: the best estimate of the grid (on a plateau of equal
+ * expected losses, its middle point, the lower of two middle points; of two plateaus,
+ * the first). */
+double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min);
+
+/* Returns true when states and estimates (at least two of each) lie on one uniform
+ * lattice of spacing *h, so every error estimate - state is a multiple of h; then the
+ * error of (estimates[0], states[S-1]) is (*k0)·h. */
+bool lop_curve_lattice(const double *states, size_t n_states, const double *estimates,
+                       size_t n_estimates, double *h, long *k0);
+
+/* Returns an FFT correlation plan for any shift-invariant loss on a lattice, or NULL
+ * when memory runs out. loss[t] (t = 0 .. n_states + n_estimates - 2) is the loss at
+ * error (k0 + t)·h, as lop_curve_lattice defines k0 and h; the plan copies what it needs. */
+lop_curve_fft *lop_curve_fft_new(const double *loss, size_t n_states, size_t n_estimates);
+
+/* Frees f; NULL is a no-op. */
+void lop_curve_fft_free(lop_curve_fft *f);
+
+/* Writes el[j] = sum_i p[i]·loss[j - i + n_states - 1] for every estimate j (el has
+ * n_estimates entries), by zero-padded real FFTs. */
+void lop_curve_fft_expected(lop_curve_fft *f, const double *p, double *el);
+
+#endif

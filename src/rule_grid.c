@@ -1,0 +1,505 @@
+/* The Bayes rule over the measurement grid of one numeric channel, for a grid of
+ * states, for estimates, and for noise other than gaussian: O(M·S) in all, parallel
+ * over measurement points, one workspace of O(S + A + E) per thread, never an M×S
+ * array. The [rule.NAME] comparisons ride along on the same posteriors. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_roots.h>
+
+#include "lopside/decide.h"
+#include "lopside/evidence.h"
+#include "lopside/posterior.h"
+#include "lopside/rule.h"
+#include "lopside/strutil.h"
+#include "rule_private.h"
+
+/* The automatic measurement grid leaves at most this predictive mass outside: 1e-7 to
+ * the prior's tails, the rest to each state's measurement tails (format.md: 1e-6). */
+#define PRIOR_TAIL_MASS 1e-7
+#define NOISE_TAIL_MASS 0.9e-6
+#define COUNT_POINTS_MAX 1000000
+#define SWITCH_TOLERANCE 1e-12
+#define SWITCH_ITERATIONS 200
+/* Posterior weights below e^-50 of the largest change no decision or expected loss by
+ * more than 2e-22 times the number of states, relative: the rule skips their exp. */
+#define NEGLIGIBLE_LOG_WEIGHT (-50.0)
+/* Below this predictive mass on the grid, the risk misses a part worth a warning. */
+#define COVERAGE_WARN 1e-3
+
+/* A believed problem's view of the shared measurement. */
+typedef struct {
+    const lop_problem *bp;
+    const lop_channel *c;
+    double *logprior;
+    lop_evidence_kernel kern;
+} believed_view;
+
+/* Everything one thread needs for one measurement point. */
+typedef struct {
+    double *logw, *post, *el;
+    lop_curve_work *curve;
+    double **blogw, **bpost, **bel;    /* per believed rule */
+    lop_curve_work **bcurve;
+} thread_work;
+
+typedef struct {
+    const lop_problem *p;
+    const lop_channel *c;
+    size_t channel;
+    double *logprior;
+    lop_evidence_kernel kern;
+    believed_view *believed;          /* per rule; bp NULL when not a believed rule */
+    double **rule_loss;               /* per rule: its posterior expected loss per point */
+} grid_job;
+
+static void thread_work_free(thread_work *t, size_t n_rules)
+{
+    if (!t)
+        return;
+    free(t->logw);
+    free(t->post);
+    free(t->el);
+    lop_curve_work_free(t->curve);
+    for (size_t k = 0; k < n_rules; k++) {
+        if (t->blogw)
+            free(t->blogw[k]);
+        if (t->bpost)
+            free(t->bpost[k]);
+        if (t->bel)
+            free(t->bel[k]);
+        if (t->bcurve)
+            lop_curve_work_free(t->bcurve[k]);
+    }
+    free(t->blogw);
+    free(t->bpost);
+    free(t->bel);
+    free(t->bcurve);
+    free(t);
+}
+
+static lop_curve_work *curve_for(const lop_problem *p)
+{
+    return lop_curve_work_new(&p->curve, p->state_values, p->n_states, p->estimates,
+                              p->n_estimates);
+}
+
+static thread_work *thread_work_new(const grid_job *job)
+{
+    const lop_problem *p = job->p;
+    thread_work *t = calloc(1, sizeof *t);
+    if (!t)
+        return NULL;
+    size_t k = p->n_rules ? p->n_rules : 1;
+    t->logw = malloc(p->n_states * sizeof *t->logw);
+    t->post = malloc(p->n_states * sizeof *t->post);
+    t->el = malloc((p->n_actions ? p->n_actions : 1) * sizeof *t->el);
+    t->curve = p->estimate ? curve_for(p) : NULL;
+    t->blogw = calloc(k, sizeof *t->blogw);
+    t->bpost = calloc(k, sizeof *t->bpost);
+    t->bel = calloc(k, sizeof *t->bel);
+    t->bcurve = calloc(k, sizeof *t->bcurve);
+    bool ok = t->logw && t->post && t->el && (!p->estimate || t->curve) && t->blogw &&
+              t->bpost && t->bel && t->bcurve;
+    for (size_t r = 0; ok && r < p->n_rules; r++) {
+        const lop_problem *bp = job->believed[r].bp;
+        if (!bp)
+            continue;
+        t->blogw[r] = malloc(bp->n_states * sizeof(double));
+        t->bpost[r] = malloc(bp->n_states * sizeof(double));
+        t->bel[r] = malloc((bp->n_actions ? bp->n_actions : 1) * sizeof(double));
+        t->bcurve[r] = bp->estimate ? curve_for(bp) : NULL;
+        ok = t->blogw[r] && t->bpost[r] && t->bel[r] && (!bp->estimate || t->bcurve[r]);
+    }
+    if (!ok) {
+        thread_work_free(t, p->n_rules);
+        return NULL;
+    }
+    return t;
+}
+
+/* Posterior at measurement x into post; returns the log of the predictive density (or
+ * probability, for counts) of x. */
+static double posterior_at(const lop_evidence_kernel *kern, const double *logprior, double x,
+                           double *logw, double *post)
+{
+    lop_evidence_kernel_eval(kern, x, logprior, logw);
+    return lop_posterior_normalize_above(logw, kern->n_states, NEGLIGIBLE_LOG_WEIGHT, post);
+}
+
+/* Expected loss of estimate e under post, by the direct sum (any estimate, any curve). */
+static double estimate_loss(const lop_problem *p, const double *post, double e)
+{
+    double sum = 0;
+    for (size_t s = 0; s < p->n_states; s++)
+        if (post[s] > 0)
+            sum += post[s] * lop_curve_loss(&p->curve, e, p->state_values[s]);
+    return sum;
+}
+
+/* Decision of rule k at measurement x (an action index or an estimate), and its
+ * posterior expected loss under the true posterior t->post (choices: t->el). */
+static double compared_decision(const grid_job *job, thread_work *t, size_t k, double x,
+                                double *loss)
+{
+    const lop_problem *p = job->p;
+    const lop_rule_spec *spec = &p->rules[k];
+    double estimate = NAN;
+    switch (spec->kind) {
+    case LOP_RULE_KIND_MEAN:
+    case LOP_RULE_KIND_MEDIAN:
+    case LOP_RULE_KIND_MODE: {
+        lop_summary sum;
+        lop_posterior_summarize(p, t->post, &sum);
+        estimate = spec->kind == LOP_RULE_KIND_MEAN     ? sum.mean
+                   : spec->kind == LOP_RULE_KIND_MEDIAN ? sum.median
+                                                        : sum.mode;
+        break;
+    }
+    case LOP_RULE_KIND_MAX_LIKELIHOOD: {
+        size_t best = 0;
+        double top = -INFINITY;
+        for (size_t s = 0; s < p->n_states; s++) {
+            double ll = lop_evidence_log_summary(job->c, s, x, job->c->repeats);
+            if (ll > top) {
+                top = ll;
+                best = s;
+            }
+        }
+        estimate = p->state_values[best];
+        break;
+    }
+    case LOP_RULE_KIND_THRESHOLD: {
+        size_t a = x >= spec->at ? 1 : 0;
+        *loss = t->el[a];
+        return (double)a;
+    }
+    case LOP_RULE_KIND_BELIEVED: {
+        const believed_view *b = &job->believed[k];
+        posterior_at(&b->kern, b->logprior, x, t->blogw[k], t->bpost[k]);
+        if (!b->bp->estimate) {
+            lop_decide_expected(b->bp, t->bpost[k], t->bel[k]);
+            size_t a = lop_decide_best(t->bel[k], b->bp->n_actions);
+            *loss = t->el[a];
+            return (double)a;
+        }
+        estimate = lop_curve_bayes(t->bcurve[k], t->bpost[k], NULL);
+        break;
+    }
+    }
+    *loss = estimate_loss(p, t->post, estimate);
+    return estimate;
+}
+
+static void solve_point(const grid_job *job, thread_work *t, lop_results *r, size_t m)
+{
+    const lop_problem *p = job->p;
+    lop_rule_result *rule = &r->rule;
+    double x = rule->grid[m];
+    double lognorm = posterior_at(&job->kern, job->logprior, x, t->logw, t->post);
+    double cell = rule->count_grid ? 1 : (rule->grid[rule->n_grid - 1] - rule->grid[0]) /
+                                         (double)(rule->n_grid - 1);
+    rule->grid_weight[m] = lognorm == -INFINITY ? 0 : exp(lognorm) * cell;
+    if (lognorm == -INFINITY) {
+        /* A measurement no state can produce: any decision, weight 0. */
+        for (size_t s = 0; s < p->n_states; s++)
+            t->post[s] = p->prior[s];
+    }
+    if (p->estimate) {
+        double loss;
+        rule->grid_estimate[m] = lop_curve_bayes(t->curve, t->post, &loss);
+        rule->grid_loss[m] = loss;
+    } else {
+        lop_decide_expected(p, t->post, t->el);
+        size_t a = lop_decide_best(t->el, p->n_actions);
+        rule->grid_action[m] = a;
+        rule->grid_loss[m] = t->el[a];
+    }
+    for (size_t k = 0; k < p->n_rules; k++) {
+        lop_compared_rule *cr = &r->compared[k];
+        if (!cr->grid_decision)
+            continue;
+        cr->grid_decision[m] = compared_decision(job, t, k, x, &job->rule_loss[k][m]);
+    }
+}
+
+/* The measurement grid: given, or covering all but 1e-6 of the predictive mass. */
+static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_result *rule)
+{
+    rule->count_grid = lop_evidence_is_count(c);
+    double lo = c->grid_from, hi = c->grid_to;
+    if (!c->grid_given) {
+        size_t first = 0, last = p->n_states - 1;
+        double cum = 0;
+        while (first < last && cum + p->prior[first] <= 0.5 * PRIOR_TAIL_MASS)
+            cum += p->prior[first++];
+        cum = 0;
+        while (last > first && cum + p->prior[last] <= 0.5 * PRIOR_TAIL_MASS)
+            cum += p->prior[last--];
+        lo = INFINITY;
+        hi = -INFINITY;
+        double q = 0.5 * NOISE_TAIL_MASS;
+        for (size_t s = first; s <= last; s++) {
+            if (p->prior[s] == 0)
+                continue;
+            /* Count families are stochastically ordered in their parameter: only the
+             * smallest and largest centers matter, and their quantiles are costly. */
+            if (rule->count_grid && s != first && s != last)
+                continue;
+            lo = fmin(lo, lop_evidence_summary_quantile(c, s, q, c->repeats));
+            hi = fmax(hi, lop_evidence_summary_quantile(c, s, 1 - q, c->repeats));
+        }
+        if (rule->count_grid && hi == lo)
+            hi = lo + 1;
+    }
+    rule->n_grid = rule->count_grid ? (size_t)(hi - lo) + 1 : c->grid_points;
+    if (rule->count_grid && rule->n_grid > COUNT_POINTS_MAX)
+        return -2;
+    rule->grid = malloc(rule->n_grid * sizeof *rule->grid);
+    if (!rule->grid)
+        return -1;
+    for (size_t i = 0; i < rule->n_grid; i++)
+        rule->grid[i] = rule->count_grid ? lo + (double)i
+                                     : lo + (hi - lo) * (double)i / (double)(rule->n_grid - 1);
+    return 0;
+}
+
+/* Root of the difference of expected losses of actions a and b along x (Brent). */
+typedef struct {
+    const grid_job *job;
+    thread_work *t;
+    size_t a, b;
+} switch_ctx;
+
+static double difference_at(double x, void *param)
+{
+    switch_ctx *ctx = param;
+    const lop_problem *p = ctx->job->p;
+    posterior_at(&ctx->job->kern, ctx->job->logprior, x, ctx->t->logw, ctx->t->post);
+    lop_decide_expected(p, ctx->t->post, ctx->t->el);
+    return ctx->t->el[ctx->a] - ctx->t->el[ctx->b];
+}
+
+static double refine_switch(switch_ctx *ctx, double lo, double hi)
+{
+    gsl_function f = {difference_at, ctx};
+    double flo = difference_at(lo, ctx), fhi = difference_at(hi, ctx);
+    if (flo == 0)
+        return lo;
+    if (fhi == 0 || flo * fhi > 0)
+        return hi;
+    gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+    double root = 0.5 * (lo + hi);
+    if (s && gsl_root_fsolver_set(s, &f, lo, hi) == GSL_SUCCESS) {
+        for (int it = 0; it < SWITCH_ITERATIONS; it++) {
+            if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
+                break;
+            root = gsl_root_fsolver_root(s);
+            if (gsl_root_test_interval(gsl_root_fsolver_x_lower(s), gsl_root_fsolver_x_upper(s),
+                                       SWITCH_TOLERANCE, SWITCH_TOLERANCE) == GSL_SUCCESS)
+                break;
+        }
+    }
+    gsl_root_fsolver_free(s);
+    return root;
+}
+
+/* Switch points of choices: refined by root finding between grid points for
+ * continuous measurements; for counts, the first count of the new action. */
+static int find_switches(const grid_job *job, thread_work *t, lop_rule_result *rule)
+{
+    for (size_t m = 1; m < rule->n_grid; m++) {
+        size_t a = rule->grid_action[m - 1], b = rule->grid_action[m];
+        if (a == b)
+            continue;
+        double x = rule->grid[m];
+        if (!rule->count_grid) {
+            switch_ctx ctx = {job, t, a, b};
+            x = refine_switch(&ctx, rule->grid[m - 1], rule->grid[m]);
+        }
+        lop_switch_point *grown =
+            realloc(rule->switches, (rule->n_switches + 1) * sizeof *grown);
+        if (!grown)
+            return -1;
+        rule->switches = grown;
+        grown[rule->n_switches++] = (lop_switch_point){x, a, b, 0};
+    }
+    return 0;
+}
+
+static void prior_only(const lop_problem *p, lop_rule_result *rule, double *el)
+{
+    if (p->estimate) {
+        lop_curve_work *w = curve_for(p);
+        if (w) {
+            lop_curve_bayes(w, p->prior, &rule->prior_only_risk);
+            lop_curve_work_free(w);
+        }
+        rule->prior_only_action = 0;
+        return;
+    }
+    lop_decide_expected(p, p->prior, el);
+    rule->prior_only_action = lop_decide_best(el, p->n_actions);
+    rule->prior_only_risk = el[rule->prior_only_action];
+}
+
+static double *log_prior(const lop_problem *p)
+{
+    double *lp = malloc(p->n_states * sizeof *lp);
+    for (size_t s = 0; lp && s < p->n_states; s++)
+        lp[s] = log(p->prior[s]);
+    return lp;
+}
+
+/* The index of the numeric channel of a problem (there is exactly one here). */
+static size_t numeric_channel(const lop_problem *p)
+{
+    for (size_t i = 0; i < p->n_channels; i++)
+        if (p->channels[i].kind == LOP_CHANNEL_NOISE)
+            return i;
+    return 0;
+}
+
+static lop_status prepare_rules(grid_job *job, lop_results *r, lop_error *err)
+{
+    const lop_problem *p = job->p;
+    for (size_t k = 0; k < p->n_rules; k++) {
+        const lop_rule_spec *spec = &p->rules[k];
+        lop_compared_rule *cr = &r->compared[k];
+        if (spec->kind == LOP_RULE_KIND_BELIEVED) {
+            const lop_problem *bp = spec->believed;
+            if (lop_problem_numeric_channels(bp) != 1 || bp->n_channels != 1) {
+                cr->not_computed_why = lop_strdup("the believed problem needs one numeric "
+                                                  "channel, as the true one has");
+                if (!cr->not_computed_why)
+                    return lop_error_run(err, "out of memory");
+                continue;
+            }
+            job->believed[k].bp = bp;
+            job->believed[k].c = &bp->channels[numeric_channel(bp)];
+            job->believed[k].logprior = log_prior(bp);
+            if (!job->believed[k].logprior ||
+                lop_evidence_kernel_init(&job->believed[k].kern, job->believed[k].c,
+                                         bp->n_states, job->believed[k].c->repeats) != 0)
+                return lop_error_run(err, "out of memory");
+        }
+        cr->grid_decision = malloc(r->rule.n_grid * sizeof *cr->grid_decision);
+        job->rule_loss[k] = malloc(r->rule.n_grid * sizeof **job->rule_loss);
+        if (!cr->grid_decision || !job->rule_loss[k])
+            return lop_error_run(err, "out of memory");
+    }
+    return LOP_OK;
+}
+
+lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *err)
+{
+    lop_rule_result *rule = &r->rule;
+    lop_status st = LOP_OK;
+    double *el = malloc((p->n_actions ? p->n_actions : 1) * sizeof *el);
+    grid_job job = {.p = p,
+                    .logprior = log_prior(p),
+                    .believed = calloc(p->n_rules + 1, sizeof(believed_view)),
+                    .rule_loss = calloc(p->n_rules + 1, sizeof(double *))};
+    if (!el || !job.logprior || !job.believed || !job.rule_loss) {
+        st = lop_error_run(err, "out of memory");
+        goto done;
+    }
+    prior_only(p, rule, el);
+    job.channel = numeric_channel(p);
+    job.c = &p->channels[job.channel];
+    rule->numeric_channel = (long)job.channel;
+    if (lop_evidence_kernel_init(&job.kern, job.c, p->n_states, job.c->repeats) != 0) {
+        st = lop_error_run(err, "out of memory");
+        goto done;
+    }
+    int grid = build_grid(p, job.c, rule);
+    if (grid == -2) {
+        st = lop_rule_not_computed(r, err, "the counts span more than a million values; "
+                                           "give grid_from and grid_to");
+        goto done;
+    }
+    rule->n_rows = 1;
+    rule->grid_weight = malloc(rule->n_grid * sizeof *rule->grid_weight);
+    rule->grid_loss = malloc(rule->n_grid * sizeof *rule->grid_loss);
+    if (p->estimate)
+        rule->grid_estimate = malloc(rule->n_grid * sizeof *rule->grid_estimate);
+    else
+        rule->grid_action = malloc(rule->n_grid * sizeof *rule->grid_action);
+    if (grid != 0 || !rule->grid_weight || !rule->grid_loss ||
+        (p->estimate ? !rule->grid_estimate : !rule->grid_action)) {
+        st = lop_error_run(err, "out of memory");
+        goto done;
+    }
+    if (prepare_rules(&job, r, err) != LOP_OK) {
+        st = LOP_ERUN;
+        goto done;
+    }
+
+    int failed = 0;
+#pragma omp parallel
+    {
+        thread_work *t = thread_work_new(&job);
+        if (!t) {
+#pragma omp atomic write
+            failed = 1;
+        }
+#pragma omp for schedule(static)
+        for (size_t m = 0; m < rule->n_grid; m++)
+            if (t)
+                solve_point(&job, t, r, m);
+        thread_work_free(t, p->n_rules);
+    }
+    if (failed) {
+        st = lop_error_run(err, "out of memory in the rule's workspaces");
+        goto done;
+    }
+
+    /* Sums in a fixed order, so the result does not depend on the thread count. */
+    rule->bayes_risk = 0;
+    rule->coverage = 0;
+    for (size_t m = 0; m < rule->n_grid; m++) {
+        rule->bayes_risk += rule->grid_weight[m] * rule->grid_loss[m];
+        rule->coverage += rule->grid_weight[m];
+    }
+    for (size_t k = 0; k < p->n_rules; k++) {
+        lop_compared_rule *cr = &r->compared[k];
+        if (!cr->grid_decision)
+            continue;
+        cr->risk = 0;
+        for (size_t m = 0; m < rule->n_grid; m++)
+            cr->risk += rule->grid_weight[m] * job.rule_loss[k][m];
+        cr->regret = cr->risk - rule->bayes_risk;
+        cr->computed = true;
+    }
+    if (!p->estimate) {
+        thread_work *t = thread_work_new(&job);
+        if (!t || find_switches(&job, t, rule) != 0) {
+            thread_work_free(t, p->n_rules);
+            st = lop_error_run(err, "out of memory");
+            goto done;
+        }
+        thread_work_free(t, p->n_rules);
+    }
+    rule->computed = true;
+    if (fabs(rule->coverage - 1) > COVERAGE_WARN &&
+        lop_results_warn(r, "[%s]: the measurement grid holds %.4g of the predictive "
+                            "probability, so the Bayes risk leaves out %.2g of it; widen "
+                            "grid_from and grid_to",
+                         job.c->section, rule->coverage, 1 - rule->coverage) != 0)
+        st = lop_error_run(err, "out of memory");
+done:
+    for (size_t k = 0; job.believed && k < p->n_rules; k++) {
+        free(job.believed[k].logprior);
+        lop_evidence_kernel_clear(&job.believed[k].kern);
+    }
+    lop_evidence_kernel_clear(&job.kern);
+    for (size_t k = 0; job.rule_loss && k < p->n_rules; k++)
+        free(job.rule_loss[k]);
+    free(job.believed);
+    free(job.rule_loss);
+    free(job.logprior);
+    free(el);
+    return st;
+}

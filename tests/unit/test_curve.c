@@ -1,0 +1,737 @@
+#include <stdlib.h>
+
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_math.h>
+#include <gsl/gsl_rng.h>
+
+#include "lopside/curve.h"
+#include "testutil.h"
+
+/* ---- helpers ---------------------------------------------------------------------- */
+
+/* Returns n points from `from` to `to`, evenly spaced, as from + i·step. */
+static double *uniform_grid(double from, double to, size_t n)
+{
+    double *g = malloc(n * sizeof *g);
+    ck_assert_ptr_nonnull(g);
+    double step = (to - from) / (double)(n - 1);
+    for (size_t i = 0; i < n; i++)
+        g[i] = from + (double)i * step;
+    return g;
+}
+
+/* Returns n increasing points from `from` with random steps between 0.2 and 1.8 of h. */
+static double *ragged_grid(gsl_rng *r, double from, double h, size_t n)
+{
+    double *g = malloc(n * sizeof *g);
+    ck_assert_ptr_nonnull(g);
+    g[0] = from;
+    for (size_t i = 1; i < n; i++)
+        g[i] = g[i - 1] + h * (0.2 + 1.6 * gsl_rng_uniform(r));
+    return g;
+}
+
+static double normal_density(double s, double mean, double sd)
+{
+    double z = (s - mean) / sd;
+    return exp(-0.5 * z * z) / sd;
+}
+
+static void normalize(double *p, size_t n)
+{
+    double sum = 0;
+    for (size_t i = 0; i < n; i++)
+        sum += p[i];
+    for (size_t i = 0; i < n; i++)
+        p[i] /= sum;
+}
+
+/* Fills p with one of three posteriors over s: two separated bumps; random weights with
+ * about a third of the states empty; all mass on one random state. */
+static void random_posterior(gsl_rng *r, int kind, const double *s, size_t n, double *p)
+{
+    double lo = s[0], span = s[n - 1] - s[0];
+    for (size_t i = 0; i < n; i++) {
+        if (kind == 0)
+            p[i] = 0.55 * normal_density(s[i], lo + 0.3 * span, 0.08 * span) +
+                   0.45 * normal_density(s[i], lo + 0.75 * span, 0.04 * span);
+        else if (kind == 1)
+            p[i] = gsl_rng_uniform(r) < 0.35 ? 0 : pow(gsl_rng_uniform(r), 3);
+        else
+            p[i] = 0;
+    }
+    if (kind == 2 || kind == 1)
+        p[gsl_rng_uniform_int(r, n)] += 1;
+    normalize(p, n);
+}
+
+/* Returns sum p·loss(x, s) by the test's own double loop, and in *abs_sum the sum of
+ * p·|loss|: the scale of the rounding of that sum. */
+static double reference_el(const lop_curve *c, const double *s, const double *p, size_t n,
+                           double x, double *abs_sum)
+{
+    double sum = 0, mag = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (p[i] == 0)
+            continue;
+        double l = lop_curve_loss(c, x, s[i]);
+        sum += p[i] * l;
+        mag += p[i] * fabs(l);
+    }
+    if (abs_sum)
+        *abs_sum = mag;
+    return sum;
+}
+
+/* ---- random problems -------------------------------------------------------------- */
+
+static const double knot_error[] = {-1.0, -0.2, 0.0, 0.5, 2.0};
+static const double knot_value[] = {3.0, 0.5, 0.0, 1.0, 4.0};
+/* Knots at and below -1 reach relative errors only for estimates <= 0. */
+static const double relative_error[] = {-1.5, -1.0, -0.5, -0.1, 0.0, 0.1, 0.3};
+static const double relative_value[] = {-2.0, 3.0, 2.0, 0.4, -0.5, 0.6, 1.5};
+static const double single_error[] = {0.3};
+static const double single_value[] = {2.5};
+
+typedef struct {
+    const char *name;
+    lop_curve c;
+} named_curve;
+
+static const named_curve curves[] = {
+    {"squared", {.kind = LOP_CURVE_SQUARED, .scale = 2}},
+    {"absolute", {.kind = LOP_CURVE_ABSOLUTE, .scale = 1.5}},
+    {"linlin", {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3}},
+    {"quadquad", {.kind = LOP_CURVE_QUADQUAD, .under = 2, .over = 0.5}},
+    {"linex a > 0", {.kind = LOP_CURVE_LINEX, .a = 0.7, .scale = 1}},
+    {"linex a < 0", {.kind = LOP_CURVE_LINEX, .a = -1.3, .scale = 0.5}},
+    {"tolerance", {.kind = LOP_CURVE_TOLERANCE, .below = 0.3, .above = 0.6, .inside = -1,
+                   .outside = 2}},
+    {"tolerance on grid steps", {.kind = LOP_CURVE_TOLERANCE, .below = 0.1, .above = 0.15,
+                                 .inside = 0, .outside = 1}},
+    {"tolerance below > 1", {.kind = LOP_CURVE_TOLERANCE, .below = 1.5, .above = 0.2,
+                             .inside = 0.5, .outside = 3}},
+    /* bands of binary fractions on the integer grid: edges fall exactly on states */
+    {"tolerance 1, 2", {.kind = LOP_CURVE_TOLERANCE, .below = 1, .above = 2, .inside = 0,
+                        .outside = 1}},
+    {"tolerance 0.5, 0.25", {.kind = LOP_CURVE_TOLERANCE, .below = 0.5, .above = 0.25,
+                             .inside = 2, .outside = -1}},
+    {"points", {.kind = LOP_CURVE_POINTS, .n_points = 5, .error = knot_error,
+                .value = knot_value}},
+    {"points around -1", {.kind = LOP_CURVE_POINTS, .n_points = 7, .error = relative_error,
+                          .value = relative_value}},
+    {"points one knot", {.kind = LOP_CURVE_POINTS, .n_points = 1, .error = single_error,
+                         .value = single_value}},
+};
+#define N_CURVES (sizeof curves / sizeof curves[0])
+
+typedef struct {
+    const char *name;
+    size_t n_states, n_estimates;
+    double *s, *x;
+    bool positive;          /* all states > 0: relative curves allowed */
+} test_grid;
+
+#define N_GRIDS 5
+
+/* Fills the grids of the random tests: the same uniform grid for states and estimates;
+ * ragged states with a wider, coarser estimate grid that starts at 0; a grid through 0
+ * with an estimate grid on the same lattice; a narrow estimate grid inside the states;
+ * integer states with integer estimates from below 0 to beyond the states. */
+static void make_grids(gsl_rng *r, test_grid *g)
+{
+    g[0] = (test_grid){"same", 301, 301, uniform_grid(0.5, 10, 301), NULL, true};
+    g[0].x = uniform_grid(0.5, 10, 301);
+    g[1] = (test_grid){"ragged", 257, 123, ragged_grid(r, 0.2, 0.03, 257),
+                       uniform_grid(0, 9, 123), true};
+    g[2] = (test_grid){"lattice", 201, 161, uniform_grid(-4, 6, 201),
+                       uniform_grid(-3, 5, 161), false};
+    g[3] = (test_grid){"narrow", 200, 36, uniform_grid(1, 5, 200),
+                       uniform_grid(2.2, 2.9, 36), true};
+    g[4] = (test_grid){"integers", 64, 84, uniform_grid(1, 64, 64), uniform_grid(-3, 80, 84),
+                       true};
+}
+
+static void free_grids(test_grid *g)
+{
+    for (size_t k = 0; k < N_GRIDS; k++) {
+        free(g[k].s);
+        free(g[k].x);
+    }
+}
+
+/* Calls check(c, grid, p, w) for every curve, both relative settings where the states
+ * allow, every grid and three posteriors, one workspace reused across posteriors. */
+static void for_each_problem(void (*check)(const named_curve *, const test_grid *,
+                                           const double *, lop_curve_work *))
+{
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, 20240611);
+    test_grid grids[N_GRIDS];
+    make_grids(r, grids);
+    for (size_t k = 0; k < N_CURVES; k++) {
+        for (int relative = 0; relative < 2; relative++) {
+            named_curve nc = curves[k];
+            nc.c.relative = relative;
+            for (size_t g = 0; g < N_GRIDS; g++) {
+                const test_grid *tg = &grids[g];
+                if (relative && !tg->positive)
+                    continue;
+                lop_curve_work *w = lop_curve_work_new(&nc.c, tg->s, tg->n_states, tg->x,
+                                                       tg->n_estimates);
+                ck_assert_msg(w != NULL, "%s on %s: no workspace", nc.name, tg->name);
+                double *p = malloc(tg->n_states * sizeof *p);
+                for (int post = 0; post < 3; post++) {
+                    random_posterior(r, post, tg->s, tg->n_states, p);
+                    check(&nc, tg, p, w);
+                }
+                free(p);
+                lop_curve_work_free(w);
+            }
+        }
+    }
+    free_grids(grids);
+    gsl_rng_free(r);
+}
+
+/* Agreement allowed between two ways of summing: 1e-9 of sum p·|loss|. Both ways round
+ * O(S) terms (S <= 301 here, so about 1e-14 relative). Prefix sums, moments and FFTs
+ * round relative to posterior totals and to the largest loss rather than to one
+ * estimate's own sum (an FFT's error is about eps·log2(n) of the largest loss sample),
+ * hence the floor at 1e-3 of the largest such scale on the grid: 1e-12 of it in all. */
+#define AGREE 1e-9
+#define FLOOR 1e-3
+
+static void check_fast_path(const named_curve *nc, const test_grid *g, const double *p,
+                            lop_curve_work *w)
+{
+    size_t n = g->n_estimates;
+    double *fast = malloc(n * sizeof *fast), *direct = malloc(n * sizeof *direct);
+    double *scale = malloc(n * sizeof *scale);
+    lop_curve_expected(w, p, fast);
+    lop_curve_expected_direct(w, p, direct);
+    double top = 0;
+    for (size_t j = 0; j < n; j++) {
+        double want = reference_el(&nc->c, g->s, p, g->n_states, g->x[j], &scale[j]);
+        ck_assert_double_eq(direct[j], want); /* the same loop, the same order */
+        top = fmax(top, scale[j]);
+    }
+    for (size_t j = 0; j < n; j++) {
+        double tol = AGREE * fmax(scale[j], FLOOR * top);
+        ck_assert_msg(fabs(fast[j] - direct[j]) <= tol,
+                      "%s%s on %s, estimate %g: fast %.17g, direct %.17g", nc->name,
+                      nc->c.relative ? " (relative)" : "", g->name, g->x[j], fast[j],
+                      direct[j]);
+    }
+    free(fast);
+    free(direct);
+    free(scale);
+}
+
+START_TEST(fast_paths_agree_with_the_direct_sum)
+{
+    for_each_problem(check_fast_path);
+}
+END_TEST
+
+/* The Bayes estimate lies in the interval, its expected loss is the direct sum there, and
+ * nothing on the grid does better. Convex curves are also checked against steps of
+ * 10%, 0.1% and 0.001% of the interval to either side (a minimizer of a convex function
+ * is no worse than its neighbours); tolerance and points must hit a grid minimum. */
+static void check_bayes(const named_curve *nc, const test_grid *g, const double *p,
+                        lop_curve_work *w)
+{
+    const lop_curve *c = &nc->c;
+    size_t n = g->n_estimates;
+    double first = g->x[0], last = g->x[n - 1], top = 0, least = INFINITY;
+    for (size_t j = 0; j < n; j++) {
+        double mag, el = reference_el(c, g->s, p, g->n_states, g->x[j], &mag);
+        top = fmax(top, mag);
+        least = fmin(least, el);
+    }
+    double el_min, mag;
+    double x = lop_curve_bayes(w, p, &el_min);
+    double at_x = reference_el(c, g->s, p, g->n_states, x, &mag);
+    double tol = AGREE * fmax(mag, FLOOR * top);
+    const char *rel = c->relative ? " (relative)" : "";
+    ck_assert_msg(x >= first && x <= last, "%s%s on %s: %g outside", nc->name, rel, g->name, x);
+    ck_assert_msg(fabs(el_min - at_x) <= tol, "%s%s on %s: el_min %.17g, direct %.17g",
+                  nc->name, rel, g->name, el_min, at_x);
+    ck_assert_msg(at_x <= least + tol, "%s%s on %s: %.17g above the grid's %.17g", nc->name,
+                  rel, g->name, at_x, least);
+    if (c->kind == LOP_CURVE_TOLERANCE || c->kind == LOP_CURVE_POINTS) {
+        bool on_grid = false;
+        for (size_t j = 0; j < n; j++)
+            on_grid = on_grid || g->x[j] == x;
+        ck_assert_msg(on_grid, "%s%s on %s: %g is not on the grid", nc->name, rel, g->name, x);
+        return;
+    }
+    for (double step = 0.1; step >= 1e-5; step /= 100) {
+        double side[2] = {x - step * (last - first), x + step * (last - first)};
+        for (int k = 0; k < 2; k++) {
+            if (side[k] < first || side[k] > last)
+                continue;
+            double el = reference_el(c, g->s, p, g->n_states, side[k], NULL);
+            ck_assert_msg(at_x <= el + tol, "%s%s on %s: %.17g at %.17g beats %.17g at %.17g",
+                          nc->name, rel, g->name, el, side[k], at_x, x);
+        }
+    }
+}
+
+START_TEST(bayes_estimates_minimize_over_the_interval)
+{
+    for_each_problem(check_bayes);
+}
+END_TEST
+
+/* ---- closed forms under a normal posterior ---------------------------------------- */
+
+/* A normal posterior N(mean, sd²) sampled on a grid from mean - 10.1 sd to mean + 10.3 sd
+ * (not centred, so symmetry does not help) with h = sd/100. Sums of a Gaussian's samples
+ * times h equal its integrals up to about exp(-2·pi²·(sd/h)²) (Poisson summation), the
+ * tails beyond 10 sd hold e^-50, so discrete moments are the normal's to rounding. */
+#define NORMAL_MEAN 1.3
+#define NORMAL_SD 0.7
+#define NORMAL_POINTS 2041
+
+static double *normal_grid(double *h)
+{
+    double from = NORMAL_MEAN - 10.1 * NORMAL_SD, to = NORMAL_MEAN + 10.3 * NORMAL_SD;
+    *h = (to - from) / (NORMAL_POINTS - 1);
+    return uniform_grid(from, to, NORMAL_POINTS);
+}
+
+static double *normal_posterior(const double *s)
+{
+    double *p = malloc(NORMAL_POINTS * sizeof *p);
+    for (size_t i = 0; i < NORMAL_POINTS; i++)
+        p[i] = normal_density(s[i], NORMAL_MEAN, NORMAL_SD);
+    normalize(p, NORMAL_POINTS);
+    return p;
+}
+
+/* Returns the Bayes estimate of c under the normal posterior, its expected loss in *el. */
+static double normal_bayes(const lop_curve *c, double *el, double *h)
+{
+    double *s = normal_grid(h), *p = normal_posterior(s);
+    lop_curve_work *w = lop_curve_work_new(c, s, NORMAL_POINTS, s, NORMAL_POINTS);
+    ck_assert_ptr_nonnull(w);
+    double x = lop_curve_bayes(w, p, el);
+    lop_curve_work_free(w);
+    free(p);
+    free(s);
+    return x;
+}
+
+START_TEST(squared_loss_gives_the_mean_and_the_variance)
+{
+    /* Under squared loss the Bayes estimate is the posterior mean and its risk the
+     * posterior variance (Gelman et al., BDA, ch. 2). Tolerance 1e-10: the grid sums are
+     * exact to rounding (see NORMAL_POINTS), which is about 1e-14 for 2041 terms. */
+    lop_curve c = {.kind = LOP_CURVE_SQUARED, .scale = 1};
+    double el, h;
+    double x = normal_bayes(&c, &el, &h);
+    ck_assert_close(x, NORMAL_MEAN, 1e-10);
+    ck_assert_close(el, NORMAL_SD * NORMAL_SD, 1e-10);
+    c.scale = 3;
+    x = normal_bayes(&c, &el, &h);
+    ck_assert_close(el, 3 * NORMAL_SD * NORMAL_SD, 1e-10);
+}
+END_TEST
+
+START_TEST(linlin_gives_the_normal_quantile)
+{
+    /* linlin's Bayes estimate is the quantile under/(under + over) of the posterior
+     * (Raiffa & Schlaifer 1961; Berger 1985, secs. 2.4 and 4.4.2, from memory); the reference is GSL's normal
+     * quantile. The discrete posterior's cumulative sum through state k is the normal CDF
+     * at s_k + h/2 (midpoint rule, error O(h²) in probability), so its quantile is the
+     * state whose cell [s - h/2, s + h/2] holds the normal one: within h/2, plus an
+     * O(h²/sd) shift far below 0.1·h here. Tolerance 0.6·h. */
+    const double pairs[][2] = {{1, 9}, {1, 3}, {1, 1}, {4, 1}, {19, 1}};
+    for (size_t k = 0; k < sizeof pairs / sizeof pairs[0]; k++) {
+        lop_curve c = {.kind = LOP_CURVE_LINLIN, .under = pairs[k][0], .over = pairs[k][1]};
+        double el, h;
+        double x = normal_bayes(&c, &el, &h);
+        double tau = c.under / (c.under + c.over);
+        double want = NORMAL_MEAN + gsl_cdf_gaussian_Pinv(tau, NORMAL_SD);
+        ck_assert_msg(fabs(x - want) <= 0.6 * h, "tau %g: %.12g, normal quantile %.12g", tau,
+                      x, want);
+    }
+    /* absolute loss: the median, which is the mean of a normal */
+    lop_curve c = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
+    double el, h;
+    double x = normal_bayes(&c, &el, &h);
+    ck_assert(fabs(x - NORMAL_MEAN) <= 0.6 * h);
+    /* and its risk E|s - median| = sd·sqrt(2/pi) = 0.5585 (the mean absolute deviation of
+     * a normal). |s - median| has a kink, so the grid sum is off by up to f·h²/4 (f: the
+     * density at the median, 0.57; h = 0.007), and a median placed up to h/2 off adds
+     * f·(h/2)² more: 1.4e-5 in all, so 3e-5. */
+    ck_assert_close(el, NORMAL_SD * sqrt(2 / M_PI), 3e-5);
+}
+END_TEST
+
+START_TEST(linex_gives_the_mean_minus_a_variance_over_two)
+{
+    /* Under a normal posterior the LINEX Bayes estimate is mean - a·sd²/2 and its risk
+     * scale·a²·sd²/2 (Zellner 1986). The grid sums of a Gaussian times e^(-a·s), itself a
+     * Gaussian shifted by a·sd² (under 2 sd here), are exact to rounding like the moments,
+     * so the tolerance is 1e-10. */
+    const double as[] = {0.8, -1.5, 2.5};
+    for (size_t k = 0; k < sizeof as / sizeof as[0]; k++) {
+        lop_curve c = {.kind = LOP_CURVE_LINEX, .a = as[k], .scale = 2};
+        double el, h;
+        double x = normal_bayes(&c, &el, &h);
+        double var = NORMAL_SD * NORMAL_SD;
+        ck_assert_close(x, NORMAL_MEAN - as[k] * var / 2, 1e-10);
+        ck_assert_close(el, 2 * as[k] * as[k] * var / 2, 1e-10);
+    }
+}
+END_TEST
+
+/* ---- tolerance: the mode as the band shrinks -------------------------------------- */
+
+START_TEST(tolerance_tends_to_the_higher_mode)
+{
+    /* 0.6·N(-2, 0.5²) + 0.4·N(3, 0.3²): most mass near -2, the higher peak at 3 (heights
+     * 0.6/0.5 < 0.4/0.3). A band of half-width b centred on a mode holds
+     * weight·(2·Phi(b/sd) - 1) of the mass; the Bayes estimate is the mode whose band
+     * holds more (GSL's normal CDF decides). The components are 10 sd apart, so each
+     * mode is its component's mean to e^-50. On the grid (h = 0.005) the best window is
+     * centred to within h. Each half-width is a fifth of a step past a multiple of h, so
+     * no band edge falls on a state (an edge on a state is in or out by rounding, and
+     * windows would alternate between 2m and 2m + 1 states). The estimate must also
+     * minimize the brute-force expected loss over the grid, and for a band narrower than
+     * a step it is the state of largest posterior weight itself. */
+    size_t n = 2201;
+    double *s = uniform_grid(-5, 6, n), h = s[1] - s[0];
+    double *p = malloc(n * sizeof *p), *el = malloc(n * sizeof *el);
+    for (size_t i = 0; i < n; i++)
+        p[i] = 0.6 * normal_density(s[i], -2, 0.5) + 0.4 * normal_density(s[i], 3, 0.3);
+    normalize(p, n);
+    size_t mode = 0;
+    for (size_t i = 1; i < n; i++)
+        if (p[i] > p[mode])
+            mode = i;
+    ck_assert(fabs(s[mode] - 3) <= h);
+    const double halves[] = {2.001, 1.001, 0.601, 0.201, 0.101, 0.031, 0.011, 0.006, 0.001};
+    for (size_t k = 0; k < sizeof halves / sizeof halves[0]; k++) {
+        double b = halves[k];
+        lop_curve c = {.kind = LOP_CURVE_TOLERANCE, .below = b, .above = b, .inside = 0,
+                       .outside = 1};
+        lop_curve_work *w = lop_curve_work_new(&c, s, n, s, n);
+        double el_min, x = lop_curve_bayes(w, p, &el_min);
+        double near_low = 0.6 * (2 * gsl_cdf_gaussian_P(b, 0.5) - 1);
+        double near_high = 0.4 * (2 * gsl_cdf_gaussian_P(b, 0.3) - 1);
+        double want = near_high > near_low ? 3 : -2;
+        ck_assert_msg(fabs(x - want) <= h, "half-width %g: %g, expected the mode at %g", b, x,
+                      want);
+        lop_curve_expected_direct(w, p, el);
+        double least = el[0];
+        for (size_t j = 1; j < n; j++)
+            least = fmin(least, el[j]);
+        /* el is 1 - (mass in the band), a sum of at most n terms: rounding ~1e-13 */
+        ck_assert_close(el_min, least, 1e-12);
+        ck_assert_close(reference_el(&c, s, p, n, x, NULL), least, 1e-12);
+        if (b < h)
+            ck_assert_msg(x == s[mode], "half-width %g: %g, mode %g", b, x, s[mode]);
+        lop_curve_work_free(w);
+    }
+    free(el);
+    free(p);
+    free(s);
+}
+END_TEST
+
+/* ---- flat minima ------------------------------------------------------------------ */
+
+/* Returns the Bayes estimate on estimates 0, 1, ..., 100 (or from..to) with the given
+ * mass on states 0, 1, ..., 100, and its expected loss in *el. */
+static double integer_bayes(const lop_curve *c, const double *p, double from, double to,
+                            double *el)
+{
+    double *s = uniform_grid(0, 100, 101);
+    size_t n_x = (size_t)(to - from) + 1;
+    double *x = uniform_grid(from, to, n_x);
+    lop_curve_work *w = lop_curve_work_new(c, s, 101, x, n_x);
+    ck_assert_ptr_nonnull(w);
+    double best = lop_curve_bayes(w, p, el);
+    lop_curve_work_free(w);
+    free(x);
+    free(s);
+    return best;
+}
+
+START_TEST(flat_minima_give_their_middle)
+{
+    double p[101] = {0};
+    double el;
+    /* All mass on 40. A band -5.5 <= e <= 5.5 holds it for estimates 35..45: the plateau's
+     * middle is 40. A band -2.5 <= e <= 7.5 holds it for 38..47 (ten points): the lower
+     * middle, 42. Hand calculations; el is exactly inside or outside. */
+    p[40] = 1;
+    lop_curve band = {.kind = LOP_CURVE_TOLERANCE, .below = 5.5, .above = 5.5, .inside = -3,
+                      .outside = 1};
+    ck_assert_double_eq(integer_bayes(&band, p, 0, 100, &el), 40);
+    ck_assert_double_eq(el, -3);
+    band.below = 2.5;
+    band.above = 7.5;
+    ck_assert_double_eq(integer_bayes(&band, p, 0, 100, &el), 42);
+    /* points: zero loss for -2 <= e <= 2, rising to 5 at |e| = 10: plateau 38..42. These
+     * grids share a lattice, so the FFT path computes el: 0 up to its rounding, about
+     * eps·log2(n) of the largest value (1e-14 allows for it). */
+    const double e[] = {-10, -2, 2, 10}, v[] = {5, 0, 0, 5};
+    lop_curve pts = {.kind = LOP_CURVE_POINTS, .n_points = 4, .error = e, .value = v};
+    ck_assert_double_eq(integer_bayes(&pts, p, 0, 100, &el), 40);
+    ck_assert_close(el, 0, 1e-14);
+
+    /* Half the mass on 20, half on 30: absolute loss 1.5·(0.5|x - 20| + 0.5|x - 30|) is
+     * flat at 1.5·5 on [20, 30]: the middle is 25; with estimates only from 26 the flat
+     * part left is [26, 30], middle 28. */
+    p[40] = 0;
+    p[20] = p[30] = 0.5;
+    lop_curve abs_loss = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1.5};
+    ck_assert_double_eq(integer_bayes(&abs_loss, p, 0, 100, &el), 25);
+    ck_assert_close(el, 7.5, 1e-15);
+    ck_assert_double_eq(integer_bayes(&abs_loss, p, 26, 60, &el), 28);
+    /* linlin, under 1 and over 3 (quantile 1/4): a quarter of the mass on 10, the rest on
+     * 50. Between them the loss is 3·0.25·(x - 10) + 1·0.75·(50 - x) = 30, flat: the
+     * middle is 30. */
+    p[20] = p[30] = 0;
+    p[10] = 0.25;
+    p[50] = 0.75;
+    lop_curve lin = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
+    ck_assert_double_eq(integer_bayes(&lin, p, 0, 100, &el), 30);
+    ck_assert_close(el, 30, 1e-15);
+}
+END_TEST
+
+/* ---- FFT correlation -------------------------------------------------------------- */
+
+/* Any shift-invariant loss will do for the FFT path; this one is neither even nor
+ * piecewise linear. */
+static double wiggly_loss(double e)
+{
+    return pow(fabs(e), 1.5) + 0.3 * sin(2 * e);
+}
+
+START_TEST(fft_correlation_matches_the_direct_sum)
+{
+    /* states -3..4 and estimates -1..2.5 with h = 0.01: 701 + 351 - 1 = 1051 samples,
+     * padded to 1080 = 2³·3³·5 (GSL's mixed-radix path, not only powers of 2). An FFT's
+     * rounding is absolute, about eps·log2(n) times the largest sample, so the tolerance
+     * is 1e-9 of the largest loss sample. */
+    size_t n_s = 701, n_x = 351;
+    double *s = uniform_grid(-3, 4, n_s), *x = uniform_grid(-1, 2.5, n_x);
+    double h;
+    long k0;
+    ck_assert(lop_curve_lattice(s, n_s, x, n_x, &h, &k0));
+    ck_assert_close(h, 0.01, 1e-12);
+    ck_assert_int_eq(k0, -500); /* (-1 - 4)/0.01 */
+    size_t n_t = n_s + n_x - 1;
+    double *loss = malloc(n_t * sizeof *loss), top = 0;
+    for (size_t t = 0; t < n_t; t++) {
+        loss[t] = wiggly_loss(((double)k0 + (double)t) * h);
+        top = fmax(top, fabs(loss[t]));
+    }
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, 7);
+    double *p = malloc(n_s * sizeof *p), *el = malloc(n_x * sizeof *el);
+    lop_curve_fft *f = lop_curve_fft_new(loss, n_s, n_x);
+    ck_assert_ptr_nonnull(f);
+    for (int post = 0; post < 3; post++) {
+        random_posterior(r, post, s, n_s, p);
+        lop_curve_fft_expected(f, p, el);
+        for (size_t j = 0; j < n_x; j++) {
+            double want = 0;
+            for (size_t i = 0; i < n_s; i++)
+                want += p[i] * wiggly_loss(x[j] - s[i]);
+            ck_assert_msg(fabs(el[j] - want) <= 1e-9 * top, "estimate %g: fft %.17g, direct %.17g",
+                          x[j], el[j], want);
+        }
+    }
+    lop_curve_fft_free(f);
+    free(el);
+    free(p);
+    free(loss);
+    gsl_rng_free(r);
+    free(x);
+    free(s);
+}
+END_TEST
+
+START_TEST(lattices_are_recognized)
+{
+    double h;
+    long k0;
+    double *s = uniform_grid(0, 10, 101), *x = uniform_grid(2, 3, 11);
+    ck_assert(lop_curve_lattice(s, 101, x, 11, &h, &k0));
+    ck_assert_int_eq(k0, -80);     /* (2 - 10)/0.1 */
+    double *half = uniform_grid(2.05, 3.05, 11);   /* half a step off */
+    ck_assert(!lop_curve_lattice(s, 101, half, 11, &h, &k0));
+    double *coarse = uniform_grid(2, 4, 11);       /* step 0.2 */
+    ck_assert(!lop_curve_lattice(s, 101, coarse, 11, &h, &k0));
+    s[50] += 1e-6;                                 /* one state off */
+    ck_assert(!lop_curve_lattice(s, 101, x, 11, &h, &k0));
+    free(coarse);
+    free(half);
+    free(x);
+    free(s);
+}
+END_TEST
+
+START_TEST(points_with_many_knots_take_the_fft_path)
+{
+    /* 400 knots on [-5, 5] (a wiggle on a parabola), states 0..19.99 (2000 points) and
+     * estimates 2..17 on the same lattice: the FFT is far cheaper than 400 pieces, and
+     * must agree with the direct sum to 1e-9 of the largest value (its rounding is
+     * absolute, see above). The same curve cut to 3 knots stays on the pieces. */
+    size_t n_k = 400, n_s = 2000, n_x = 1501;
+    double *e = uniform_grid(-5, 5, n_k), *v = malloc(n_k * sizeof *v), top = 0;
+    for (size_t k = 0; k < n_k; k++) {
+        v[k] = 0.2 * e[k] * e[k] + sin(7 * e[k]);
+        top = fmax(top, fabs(v[k]));
+    }
+    double *s = uniform_grid(0, 19.99, n_s), *x = uniform_grid(2, 17, n_x);
+    lop_curve c = {.kind = LOP_CURVE_POINTS, .n_points = n_k, .error = e, .value = v};
+    lop_curve_work *w = lop_curve_work_new(&c, s, n_s, x, n_x);
+    ck_assert_ptr_nonnull(w);
+    ck_assert_int_eq(lop_curve_work_method(w), LOP_CURVE_BY_FFT);
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, 11);
+    double *p = malloc(n_s * sizeof *p);
+    double *fast = malloc(n_x * sizeof *fast), *direct = malloc(n_x * sizeof *direct);
+    for (int post = 0; post < 3; post++) {
+        random_posterior(r, post, s, n_s, p);
+        lop_curve_expected(w, p, fast);
+        lop_curve_expected_direct(w, p, direct);
+        size_t best = 0;
+        for (size_t j = 0; j < n_x; j++) {
+            ck_assert_msg(fabs(fast[j] - direct[j]) <= 1e-9 * top,
+                          "estimate %g: fft %.17g, direct %.17g", x[j], fast[j], direct[j]);
+            if (direct[j] < direct[best])
+                best = j;
+        }
+        double el_min;
+        lop_curve_bayes(w, p, &el_min);
+        ck_assert(fabs(el_min - direct[best]) <= 1e-9 * top);
+    }
+    c.n_points = 3;
+    lop_curve_work *few = lop_curve_work_new(&c, s, n_s, x, n_x);
+    ck_assert_int_eq(lop_curve_work_method(few), LOP_CURVE_BY_PIECES);
+    lop_curve_work_free(few);
+    free(direct);
+    free(fast);
+    free(p);
+    gsl_rng_free(r);
+    lop_curve_work_free(w);
+    free(x);
+    free(s);
+    free(v);
+    free(e);
+}
+END_TEST
+
+/* ---- single losses and validation ------------------------------------------------- */
+
+START_TEST(losses_follow_the_format_table)
+{
+    /* format.md's table of curves, by hand. */
+    lop_curve c = {.kind = LOP_CURVE_SQUARED, .scale = 2};
+    ck_assert_double_eq(lop_curve_loss(&c, 1, 2.5), 4.5);
+    c = (lop_curve){.kind = LOP_CURVE_ABSOLUTE, .scale = 3};
+    ck_assert_double_eq(lop_curve_loss(&c, 1, 3), 6);
+    c = (lop_curve){.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
+    ck_assert_double_eq(lop_curve_loss(&c, 1, 3), 2);
+    ck_assert_double_eq(lop_curve_loss(&c, 3.5, 3), 1.5);
+    c = (lop_curve){.kind = LOP_CURVE_QUADQUAD, .under = 2, .over = 0.5};
+    ck_assert_double_eq(lop_curve_loss(&c, 2, 3), 2);
+    ck_assert_double_eq(lop_curve_loss(&c, 5, 3), 2);
+    /* LINEX at a·e = 1: e - 2; at a·e = 1e-6: 1e-12/2 + 1e-18/6 + ..., which the
+     * literal exp(a·e) - a·e - 1 gets wrong in the fourth digit. */
+    c = (lop_curve){.kind = LOP_CURVE_LINEX, .a = 1, .scale = 1};
+    ck_assert_close(lop_curve_loss(&c, 2, 1), M_E - 2, 1e-15);
+    ck_assert_close(lop_curve_loss(&c, 1e-6, 0) * 1e12, 0.5 + 1e-6 / 6, 1e-12);
+    c = (lop_curve){.kind = LOP_CURVE_TOLERANCE, .below = 1, .above = 2, .inside = 0,
+                    .outside = 4};
+    ck_assert_double_eq(lop_curve_loss(&c, 0, 1), 0);     /* e = -1: on the edge */
+    ck_assert_double_eq(lop_curve_loss(&c, 3, 1), 0);     /* e = 2: on the edge */
+    ck_assert_double_eq(lop_curve_loss(&c, 3.001, 1), 4);
+    ck_assert_double_eq(lop_curve_loss(&c, -0.001, 1), 4);
+    /* relative band -0.25 <= (x - 8)/8 <= 0.125 is 6 <= x <= 9 (binary fractions) */
+    c = (lop_curve){.kind = LOP_CURVE_TOLERANCE, .below = 0.25, .above = 0.125, .inside = 1,
+                    .outside = 2, .relative = true};
+    ck_assert_double_eq(lop_curve_loss(&c, 9, 8), 1);
+    ck_assert_double_eq(lop_curve_loss(&c, 6, 8), 1);
+    ck_assert_double_eq(lop_curve_loss(&c, 9.0001, 8), 2);
+    ck_assert_double_eq(lop_curve_loss(&c, 5.9999, 8), 2);
+    const double e[] = {-1, 0, 2}, v[] = {4, 0, 1};
+    c = (lop_curve){.kind = LOP_CURVE_POINTS, .n_points = 3, .error = e, .value = v};
+    ck_assert_double_eq(lop_curve_loss(&c, 0, 3), 4);     /* flat below */
+    ck_assert_double_eq(lop_curve_loss(&c, 2.5, 3), 2);
+    ck_assert_double_eq(lop_curve_loss(&c, 4, 3), 0.5);
+    ck_assert_double_eq(lop_curve_loss(&c, 8, 3), 1);     /* flat above */
+    c.relative = true;                                    /* e = (12 - 10)/10 = 0.2 */
+    ck_assert_close(lop_curve_loss(&c, 12, 10), 0.1, 1e-15);
+}
+END_TEST
+
+START_TEST(bad_curves_and_grids_are_refused)
+{
+    const double e[] = {0, 0}, v[] = {1, 2};
+    const lop_curve bad[] = {
+        {.kind = LOP_CURVE_SQUARED, .scale = 0},
+        {.kind = LOP_CURVE_ABSOLUTE, .scale = -1},
+        {.kind = LOP_CURVE_LINLIN, .under = 0, .over = 1},
+        {.kind = LOP_CURVE_QUADQUAD, .under = 1, .over = NAN},
+        {.kind = LOP_CURVE_LINEX, .a = 0, .scale = 1},
+        {.kind = LOP_CURVE_TOLERANCE, .below = -2, .above = 1, .outside = 1},
+        {.kind = LOP_CURVE_POINTS, .n_points = 2, .error = e, .value = v},
+        {.kind = LOP_CURVE_POINTS, .n_points = 0, .error = e, .value = v},
+    };
+    double s[] = {1, 2, 3}, x[] = {1, 2};
+    for (size_t k = 0; k < sizeof bad / sizeof bad[0]; k++) {
+        ck_assert_ptr_nonnull(lop_curve_invalid(&bad[k]));
+        ck_assert_ptr_null(lop_curve_work_new(&bad[k], s, 3, x, 2));
+    }
+    lop_curve good = {.kind = LOP_CURVE_SQUARED, .scale = 1};
+    ck_assert_ptr_null(lop_curve_invalid(&good));
+    lop_curve_work *w = lop_curve_work_new(&good, s, 3, x, 2);
+    ck_assert_ptr_nonnull(w);
+    ck_assert_int_eq(lop_curve_work_method(w), LOP_CURVE_BY_MOMENTS);
+    lop_curve_work_free(w);
+    lop_curve_work_free(NULL);
+    lop_curve_fft_free(NULL);
+    /* relative errors need states > 0 */
+    good.relative = true;
+    double with_zero[] = {0, 1, 2}, negative[] = {-1, 1, 2};
+    ck_assert_ptr_null(lop_curve_work_new(&good, with_zero, 3, x, 2));
+    ck_assert_ptr_null(lop_curve_work_new(&good, negative, 3, x, 2));
+    /* grids must increase */
+    good.relative = false;
+    double flat[] = {1, 1, 2}, backwards[] = {2, 1};
+    ck_assert_ptr_null(lop_curve_work_new(&good, flat, 3, x, 2));
+    ck_assert_ptr_null(lop_curve_work_new(&good, s, 3, backwards, 2));
+    ck_assert_ptr_null(lop_curve_work_new(&good, s, 0, x, 2));
+}
+END_TEST
+
+Suite *suite_curve(void)
+{
+    Suite *s = suite_create("curve");
+    TCase *tc = tcase_create("curve");
+    tcase_set_timeout(tc, 60);
+    tcase_add_test(tc, losses_follow_the_format_table);
+    tcase_add_test(tc, bad_curves_and_grids_are_refused);
+    tcase_add_test(tc, fast_paths_agree_with_the_direct_sum);
+    tcase_add_test(tc, bayes_estimates_minimize_over_the_interval);
+    tcase_add_test(tc, squared_loss_gives_the_mean_and_the_variance);
+    tcase_add_test(tc, linlin_gives_the_normal_quantile);
+    tcase_add_test(tc, linex_gives_the_mean_minus_a_variance_over_two);
+    tcase_add_test(tc, tolerance_tends_to_the_higher_mode);
+    tcase_add_test(tc, flat_minima_give_their_middle);
+    tcase_add_test(tc, fft_correlation_matches_the_direct_sum);
+    tcase_add_test(tc, lattices_are_recognized);
+    tcase_add_test(tc, points_with_many_knots_take_the_fft_path);
+    suite_add_tcase(s, tc);
+    return s;
+}

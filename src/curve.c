@@ -388,8 +388,9 @@ static void linlin_grid(lop_curve_work *w, double *el)
 
 /* Returns the Bayes estimate of linlin (absolute: under = over): the quantile
  * tau = under/(under + over) of the weights p·c (Raiffa & Schlaifer 1961; Berger 1985,
- * secs. 2.4 and 4.4.2, from memory). The expected loss is flat between states whose cumulative weight equals
- * tau·total; then the middle of that interval (within the estimates) is returned. */
+ * secs. 2.4 and 4.4.2, from memory). The expected loss is flat between states whose
+ * cumulative weight equals tau·total; then the middle of that interval (within the
+ * estimates) is returned. */
 static double linlin_bayes(const lop_curve_work *w)
 {
     double under, over;
@@ -829,42 +830,66 @@ void lop_curve_expected_direct(const lop_curve_work *w, const double *p, double 
         el[j] = direct_at(w, p, w->x[j]);
 }
 
+/* Expected loss of one estimate x for a convex curve, once prepare() has run. */
+static double convex_at(lop_curve_work *w, const double *p, double x)
+{
+    const lop_curve *c = &w->c;
+    switch (c->kind) {
+    case LOP_CURVE_SQUARED:
+        return squared_at(w, x);
+    case LOP_CURVE_ABSOLUTE:
+    case LOP_CURVE_LINLIN: {
+        double under, over;
+        linlin_weights(c, &under, &over);
+        return linlin_at(w, x, count_at_most(w->s, w->n_states, x), under, over);
+    }
+    case LOP_CURVE_QUADQUAD:
+        return quadquad_at(w, x, count_at_most(w->s, w->n_states, x));
+    default:
+        return c->relative ? direct_at(w, p, x) : linex_at(w, x);
+    }
+}
+
+/* The continuous minimizer of a convex curve's expected loss over the estimate range. */
+static double convex_minimizer(lop_curve_work *w, const double *p)
+{
+    const lop_curve *c = &w->c;
+    if (c->kind == LOP_CURVE_LINEX && c->relative)
+        return linex_relative_bayes(w, p);
+    prepare(w, p);
+    switch (c->kind) {
+    case LOP_CURVE_SQUARED:
+        return squared_bayes(w);
+    case LOP_CURVE_ABSOLUTE:
+    case LOP_CURVE_LINLIN:
+        return linlin_bayes(w);
+    case LOP_CURVE_QUADQUAD:
+        return quadquad_bayes(w);
+    default:
+        return linex_bayes(w);
+    }
+}
+
 double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min)
 {
     const lop_curve *c = &w->c;
-    double x = NAN, el = NAN;
+    double x, el;
     if (c->kind == LOP_CURVE_TOLERANCE || c->kind == LOP_CURVE_POINTS) {
         lop_curve_expected(w, p, w->el);
         size_t j = grid_best(w->el, w->n_estimates, curve_loss_scale(c) * w->mass);
         x = w->x[j];
         el = w->el[j];
-    } else if (c->kind == LOP_CURVE_LINEX && c->relative) {
-        x = linex_relative_bayes(w, p);
-        el = direct_at(w, p, x);
     } else {
-        prepare(w, p);
-        switch (c->kind) {
-        case LOP_CURVE_SQUARED:
-            x = squared_bayes(w);
-            el = squared_at(w, x);
-            break;
-        case LOP_CURVE_ABSOLUTE:
-        case LOP_CURVE_LINLIN: {
-            double under, over;
-            linlin_weights(c, &under, &over);
-            x = linlin_bayes(w);
-            el = linlin_at(w, x, count_at_most(w->s, w->n_states, x), under, over);
-            break;
-        }
-        case LOP_CURVE_QUADQUAD:
-            x = quadquad_bayes(w);
-            el = quadquad_at(w, x, count_at_most(w->s, w->n_states, x));
-            break;
-        default:                    /* absolute LINEX; the others were handled above */
-            x = linex_bayes(w);
-            el = linex_at(w, x);
-            break;
-        }
+        /* The actions are the points of the estimate grid (format.md). The expected loss
+         * is convex in the estimate, so the best grid point is one of the two around the
+         * continuous minimizer. */
+        double m = convex_minimizer(w, p);
+        size_t k = count_at_most(w->x, w->n_estimates, m);
+        size_t lo = k ? k - 1 : 0, hi = k < w->n_estimates ? k : w->n_estimates - 1;
+        double el_lo = convex_at(w, p, w->x[lo]), el_hi = convex_at(w, p, w->x[hi]);
+        bool low = el_lo <= el_hi;
+        x = w->x[low ? lo : hi];
+        el = low ? el_lo : el_hi;
     }
     if (el_min)
         *el_min = el;

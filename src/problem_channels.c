@@ -258,13 +258,13 @@ static lop_status check_centers(builder *b, const lop_channel *c)
         double r = c->center[s], x = p->state_values ? p->state_values[s] : NAN;
         const char *wrong = NULL;
         if (!isfinite(r))
-            wrong = "is not a finite number";
+            wrong = "is not a finite number for";
         else if (c->noise == LOP_NOISE_LOGNORMAL && !(r > 0))
-            wrong = "must be > 0 for lognormal noise";
+            wrong = "must be > 0 for";
         else if (c->noise == LOP_NOISE_POISSON && r < 0)
-            wrong = "must be >= 0 for poisson noise";
+            wrong = "must be >= 0 for";
         else if (c->noise == LOP_NOISE_BINOMIAL && (r < 0 || r > 1))
-            wrong = "must lie in [0, 1] for binomial noise";
+            wrong = "must lie in [0, 1] for";
         else if (!(c->spread[s] > 0) && c->noise != LOP_NOISE_POISSON &&
                  c->noise != LOP_NOISE_BINOMIAL)
             return pb_error(b, noise->line, c->section, "noise",
@@ -276,8 +276,12 @@ static lop_status check_centers(builder *b, const lop_channel *c)
                 snprintf(where, sizeof where, "%s", p->state_labels[s]);
             else
                 snprintf(where, sizeof where, "%g", x);
-            return pb_error(b, noise->line, c->section, "noise",
-                            "the response at state %s is %g, which %s", where, r, wrong);
+            /* Blame the response when the file gave one: that is what to change. */
+            const lop_entry *resp = pb_find(b, c->section, "response");
+            const lop_entry *at = resp ? resp : noise;
+            return pb_error(b, at->line, c->section, at->key,
+                            "the response at state %s is %g, which %s `%s` noise", where, r,
+                            wrong, noise->value);
         }
     }
     return LOP_OK;

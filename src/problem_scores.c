@@ -193,6 +193,37 @@ static lop_status build_choice_scores(builder *b, const char *section)
     return st;
 }
 
+/* A curve parameter out of its range is reported at its own line. */
+static lop_status check_param(builder *b, const char *section, const char *key, bool ok,
+                              const char *must)
+{
+    const lop_entry *e = pb_find(b, section, key);
+    if (ok || !e)
+        return LOP_OK;
+    return pb_error(b, e->line, section, key, "must be %s, found %s", must, e->value);
+}
+
+static lop_status check_curve_params(builder *b, const char *section)
+{
+    const lop_curve *c = &b->p->curve;
+    if (check_param(b, section, "scale", c->scale > 0, "> 0") != LOP_OK ||
+        check_param(b, section, "under", c->under > 0, "> 0") != LOP_OK ||
+        check_param(b, section, "over", c->over > 0, "> 0") != LOP_OK ||
+        check_param(b, section, "a", c->a != 0, "a number other than 0") != LOP_OK)
+        return LOP_EINPUT;
+    if (c->kind != LOP_CURVE_TOLERANCE)
+        return LOP_OK;
+    if (check_param(b, section, "half_width", c->above > 0, "> 0") != LOP_OK ||
+        check_param(b, section, "below", c->below >= 0, ">= 0") != LOP_OK ||
+        check_param(b, section, "above", c->above >= 0, ">= 0") != LOP_OK)
+        return LOP_EINPUT;
+    if (c->relative && c->below >= 1)
+        return check_param(b, section, pb_find(b, section, "below") ? "below" : "half_width",
+                           false, "below 1 when relative = yes (the band reaches down to "
+                                  "estimate/(1 - below))");
+    return LOP_OK;
+}
+
 static lop_status read_curve_params(builder *b, const char *section, const curve_spec *spec)
 {
     lop_problem *p = b->p;
@@ -303,12 +334,15 @@ static lop_status build_curve(builder *b, const char *section)
         if (strcmp(rel->value, "yes") != 0 && strcmp(rel->value, "no") != 0)
             return pb_error(b, rel->line, section, "relative", "expected yes or no");
         p->curve.relative = strcmp(rel->value, "yes") == 0;
-        if (p->curve.relative && !(p->state_values[0] > 0))
-            return pb_error(b, rel->line, section, "relative",
-                            "relative errors divide by the state, so every state must be > 0 "
-                            "(the states start at %g)",
-                            p->state_values[0]);
+        for (size_t i = 0; p->curve.relative && i < p->n_states; i++)
+            if (!(p->state_values[i] > 0))
+                return pb_error(b, rel->line, section, "relative",
+                                "relative errors divide by the state, so every state must be "
+                                "> 0 (one is %g)",
+                                p->state_values[i]);
     }
+    if (check_curve_params(b, section) != LOP_OK)
+        return LOP_EINPUT;
     const char *invalid = lop_curve_invalid(&p->curve);
     if (invalid)
         return pb_error(b, e->line, section, "curve", "%s", invalid);

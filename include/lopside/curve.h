@@ -75,13 +75,12 @@ void lop_curve_expected(lop_curve_work *w, const double *p, double *el);
 /* Writes the same el by the direct O(E·S) double loop: the reference for the fast paths. */
 void lop_curve_expected_direct(const lop_curve_work *w, const double *p, double *el);
 
-/* Returns the Bayes estimate under p and writes its expected loss to *el_min (may be
- * NULL). squared, absolute, linlin, quadquad, linex: the exact minimizer over the interval
- * [estimates[0], estimates[E-1]] (the middle of the minimizing interval when the minimum
- * is flat; relative linex: the root of the derivative by Brent's method, to 1e-14 of the
- * interval); tolerance, points: the best estimate of the grid (on a plateau of equal
- * expected losses, its middle point, the lower of two middle points; of two plateaus,
- * the first). */
+/* Returns the Bayes estimate under p, the best point of the estimate grid (the actions
+ * of format.md), and writes its expected loss to *el_min (may be NULL). squared,
+ * absolute, linlin, quadquad, linex: the grid point next to the exact minimizer over
+ * the interval that does better (the expected loss is convex); tolerance, points: the
+ * best grid point (on a plateau of equal expected losses, its middle point; of two
+ * plateaus, the first). */
 double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min);
 
 /* Returns true when states and estimates (at least two of each) lie on one uniform

@@ -2,9 +2,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <gsl/gsl_cdf.h>
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 
 #include "lopside/decide.h"
 #include "lopside/evidence.h"
@@ -15,9 +12,6 @@
 
 /* The automatic measurement grid leaves this much predictive mass outside (format.md). */
 #define GRID_TAIL_MASS 1e-6
-/* Switch points are located to this absolute-plus-relative width. */
-#define SWITCH_TOLERANCE 1e-12
-#define SWITCH_ITERATIONS 200
 /* Beyond the measurement grid, switch points are searched this many sds further out,
  * where every state's tail mass is below 1e-200. */
 #define FAR_TAIL_SDS 30.0
@@ -36,9 +30,8 @@ typedef struct {
     const lop_problem *p;
     const lop_channel *c;
     const double *row_logw;
-    double *logw, *post, *el;
-    double loss_scale;        /* for tie tests */
-    size_t a, b;              /* actions compared by the root function */
+    double *logw, *post;
+    lop_switch_search search;
 } numeric_view;
 
 static void free_tables(channel_table *t, size_t n)
@@ -93,91 +86,15 @@ static int tabulate_channel(const lop_problem *p, const lop_channel *c, channel_
     return 0;
 }
 
-/* Posterior at measurement x of the numeric channel, then expected losses. */
-static void posterior_at(numeric_view *v, double x)
+/* Posterior expected loss of every action at measurement x of the numeric channel. */
+static void expected_at(void *ctx, double x, double *el)
 {
+    numeric_view *v = ctx;
     const lop_problem *p = v->p;
     for (size_t s = 0; s < p->n_states; s++)
         v->logw[s] = v->row_logw[s] + lop_evidence_log_summary(v->c, s, x, v->c->repeats);
     lop_posterior_normalize(v->logw, p->n_states, v->post);
-    lop_decide_expected(p, v->post, v->el);
-}
-
-static size_t best_at(numeric_view *v, double x)
-{
-    posterior_at(v, x);
-    return lop_decide_best(v->el, v->p->n_actions);
-}
-
-/* Posterior expected loss of action a minus that of b at x: negative where a is better. */
-static double difference_at(double x, void *param)
-{
-    numeric_view *v = param;
-    posterior_at(v, x);
-    return v->el[v->a] - v->el[v->b];
-}
-
-/* Root of difference_at in [lo, hi], where a is best at lo and b at hi (Brent). */
-static double refine_switch(numeric_view *v, double lo, double hi)
-{
-    gsl_function f = {difference_at, v};
-    double flo = difference_at(lo, v), fhi = difference_at(hi, v);
-    if (flo == 0)
-        return lo;
-    if (fhi == 0 || flo * fhi > 0)
-        return hi;
-    gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-    if (!s || gsl_root_fsolver_set(s, &f, lo, hi) != GSL_SUCCESS) {
-        gsl_root_fsolver_free(s);
-        return 0.5 * (lo + hi);
-    }
-    double root = 0.5 * (lo + hi);
-    for (int it = 0; it < SWITCH_ITERATIONS; it++) {
-        if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
-            break;
-        root = gsl_root_fsolver_root(s);
-        double a = gsl_root_fsolver_x_lower(s), b = gsl_root_fsolver_x_upper(s);
-        if (gsl_root_test_interval(a, b, SWITCH_TOLERANCE, SWITCH_TOLERANCE) == GSL_SUCCESS)
-            break;
-    }
-    gsl_root_fsolver_free(s);
-    return root;
-}
-
-typedef struct {
-    lop_switch_point *items;
-    size_t n, cap;
-} switch_list;
-
-static int push_switch(switch_list *list, double x, size_t from, size_t to, size_t row)
-{
-    if (list->n == list->cap) {
-        size_t cap = list->cap ? list->cap * 2 : 16;
-        lop_switch_point *grown = realloc(list->items, cap * sizeof *grown);
-        if (!grown)
-            return -1;
-        list->items = grown;
-        list->cap = cap;
-    }
-    list->items[list->n++] = (lop_switch_point){x, from, to, row};
-    return 0;
-}
-
-/* Finds every change of action in [lo, hi] (a best at lo, b at hi); a third action
- * best at the a/b crossing splits the bracket, so crossings come out in order. */
-static int find_switches(numeric_view *v, double lo, double hi, size_t a, size_t b,
-                         size_t row, switch_list *out, int depth)
-{
-    v->a = a;
-    v->b = b;
-    double x = refine_switch(v, lo, hi);
-    size_t c = best_at(v, x);
-    if (c == a || c == b || depth > (int)v->p->n_actions ||
-        lop_decide_tied(v->el[c], v->el[a], v->loss_scale))
-        return push_switch(out, x, a, b, row);
-    if (find_switches(v, lo, x, a, c, row, out, depth + 1) != 0)
-        return -1;
-    return find_switches(v, x, hi, c, b, row, out, depth + 1);
+    lop_decide_expected(p, v->post, el);
 }
 
 static void measurement_grid(const lop_problem *p, const lop_channel *c, double *grid,
@@ -201,31 +118,32 @@ static void measurement_grid(const lop_problem *p, const lop_channel *c, double 
 /* Decides every grid point of one row, finds its switch points and returns its exact
  * contribution to the Bayes risk: the loss integrated between switch points. */
 static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
-                             switch_list *switches, double *risk)
+                             lop_switch_list *switches, double *risk)
 {
     const lop_problem *p = v->p;
     size_t m = rule->n_grid;
     size_t *act = &rule->grid_action[row * m];
+    lop_switch_search *search = &v->search;
     for (size_t i = 0; i < m; i++)
-        act[i] = best_at(v, rule->grid[i]);
+        act[i] = lop_switch_best(search, rule->grid[i]);
     /* The grid leaves a sliver of predictive mass outside, where unequal sds can still
      * turn the decision: look there too, out to where no state has mass left. */
     double reach = 0;
     for (size_t s = 0; s < p->n_states; s++)
         reach = fmax(reach, FAR_TAIL_SDS * v->c->spread[s] / sqrt((double)v->c->repeats));
     double far_lo = rule->grid[0] - reach, far_hi = rule->grid[m - 1] + reach;
-    size_t a_lo = best_at(v, far_lo), a_hi = best_at(v, far_hi);
+    size_t a_lo = lop_switch_best(search, far_lo), a_hi = lop_switch_best(search, far_hi);
     size_t first = switches->n;
     if (a_lo != act[0] &&
-        find_switches(v, far_lo, rule->grid[0], a_lo, act[0], row, switches, 0) != 0)
+        lop_switch_find(search, far_lo, rule->grid[0], a_lo, act[0], row, switches) != 0)
         return -1;
     for (size_t i = 1; i < m; i++)
         if (act[i] != act[i - 1] &&
-            find_switches(v, rule->grid[i - 1], rule->grid[i], act[i - 1], act[i], row,
-                          switches, 0) != 0)
+            lop_switch_find(search, rule->grid[i - 1], rule->grid[i], act[i - 1], act[i], row,
+                            switches) != 0)
             return -1;
     if (a_hi != act[m - 1] &&
-        find_switches(v, rule->grid[m - 1], far_hi, act[m - 1], a_hi, row, switches, 0) != 0)
+        lop_switch_find(search, rule->grid[m - 1], far_hi, act[m - 1], a_hi, row, switches) != 0)
         return -1;
 
     double lo = -INFINITY, total = 0;
@@ -398,7 +316,7 @@ static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
     double *scratch = malloc(p->n_states * sizeof *scratch);
     double *row_el = malloc(p->n_actions * sizeof *row_el);
     size_t *digit = calloc(n_table ? n_table : 1, sizeof *digit);
-    switch_list switches = {0};
+    lop_switch_list switches = {0};
     lop_status st = LOP_OK;
     if (!tables || !table_channel || !logw || !row_logw || !post || !scratch || !row_el ||
         !digit)
@@ -443,8 +361,9 @@ static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
         !rule->row_expected_loss)
         goto no_memory;
 
-    numeric_view view = {p, numeric, row_logw, logw, post, row_el,
-                         lop_decide_loss_scale(p), 0, 0};
+    numeric_view view = {p, numeric, row_logw, logw, post,
+                         {expected_at, NULL, p->n_actions, lop_decide_loss_scale(p), row_el}};
+    view.search.ctx = &view;
     rule->bayes_risk = 0;
     for (size_t row = 0; row < rule->n_rows; row++) {
         /* Row = one count vector per table channel, the last channel varying fastest. */

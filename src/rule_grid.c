@@ -6,8 +6,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 
 #include "lopside/decide.h"
 #include "lopside/evidence.h"
@@ -21,8 +19,6 @@
 #define PRIOR_TAIL_MASS 1e-7
 #define NOISE_TAIL_MASS 0.9e-6
 #define COUNT_POINTS_MAX 1000000
-#define SWITCH_TOLERANCE 1e-12
-#define SWITCH_ITERATIONS 200
 /* Posterior weights below e^-50 of the largest change no decision or expected loss by
  * more than 2e-22 times the number of states, relative: the rule skips their exp. */
 #define NEGLIGIBLE_LOG_WEIGHT (-50.0)
@@ -266,66 +262,42 @@ static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_resul
     return 0;
 }
 
-/* Root of the difference of expected losses of actions a and b along x (Brent). */
+/* Posterior expected loss of every action at x, for the switch search. */
 typedef struct {
     const grid_job *job;
     thread_work *t;
-    size_t a, b;
 } switch_ctx;
 
-static double difference_at(double x, void *param)
+static void expected_at(void *param, double x, double *el)
 {
     switch_ctx *ctx = param;
-    const lop_problem *p = ctx->job->p;
     posterior_at(&ctx->job->kern, ctx->job->logprior, x, ctx->t->logw, ctx->t->post);
-    lop_decide_expected(p, ctx->t->post, ctx->t->el);
-    return ctx->t->el[ctx->a] - ctx->t->el[ctx->b];
-}
-
-static double refine_switch(switch_ctx *ctx, double lo, double hi)
-{
-    gsl_function f = {difference_at, ctx};
-    double flo = difference_at(lo, ctx), fhi = difference_at(hi, ctx);
-    if (flo == 0)
-        return lo;
-    if (fhi == 0 || flo * fhi > 0)
-        return hi;
-    gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-    double root = 0.5 * (lo + hi);
-    if (s && gsl_root_fsolver_set(s, &f, lo, hi) == GSL_SUCCESS) {
-        for (int it = 0; it < SWITCH_ITERATIONS; it++) {
-            if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
-                break;
-            root = gsl_root_fsolver_root(s);
-            if (gsl_root_test_interval(gsl_root_fsolver_x_lower(s), gsl_root_fsolver_x_upper(s),
-                                       SWITCH_TOLERANCE, SWITCH_TOLERANCE) == GSL_SUCCESS)
-                break;
-        }
-    }
-    gsl_root_fsolver_free(s);
-    return root;
+    lop_decide_expected(ctx->job->p, ctx->t->post, el);
 }
 
 /* Switch points of choices: refined by root finding between grid points for
- * continuous measurements; for counts, the first count of the new action. */
+ * continuous measurements (splitting the bracket when a third action wins between
+ * them); for counts, the first count of the new action. */
 static int find_switches(const grid_job *job, thread_work *t, lop_rule_result *rule)
 {
+    switch_ctx ctx = {job, t};
+    lop_switch_search search = {expected_at, &ctx, job->p->n_actions,
+                                lop_decide_loss_scale(job->p), t->el};
+    lop_switch_list list = {0};
     for (size_t m = 1; m < rule->n_grid; m++) {
         size_t a = rule->grid_action[m - 1], b = rule->grid_action[m];
         if (a == b)
             continue;
-        double x = rule->grid[m];
-        if (!rule->count_grid) {
-            switch_ctx ctx = {job, t, a, b};
-            x = refine_switch(&ctx, rule->grid[m - 1], rule->grid[m]);
-        }
-        lop_switch_point *grown =
-            realloc(rule->switches, (rule->n_switches + 1) * sizeof *grown);
-        if (!grown)
+        int rc = rule->count_grid
+                     ? lop_switch_push(&list, rule->grid[m], a, b, 0)
+                     : lop_switch_find(&search, rule->grid[m - 1], rule->grid[m], a, b, 0, &list);
+        if (rc != 0) {
+            free(list.items);
             return -1;
-        rule->switches = grown;
-        grown[rule->n_switches++] = (lop_switch_point){x, a, b, 0};
+        }
     }
+    rule->switches = list.items;
+    rule->n_switches = list.n;
     return 0;
 }
 

@@ -13,4 +13,31 @@ lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why
  * numeric channel (grid states, estimates, or noise other than gaussian). */
 lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *err);
 
+/* A growing list of switch points. */
+typedef struct {
+    lop_switch_point *items;
+    size_t n, cap;
+} lop_switch_list;
+
+/* What a switch search needs: the posterior expected loss of every action at a
+ * measurement x, written to el (n_actions, scratch owned by the caller). */
+typedef struct {
+    void (*expected)(void *ctx, double x, double *el);
+    void *ctx;
+    size_t n_actions;
+    double loss_scale;        /* for tie tests */
+    double *el;
+} lop_switch_search;
+
+/* Returns 0 after appending (x, from, to, row) to list, -1 when memory runs out. */
+int lop_switch_push(lop_switch_list *list, double x, size_t from, size_t to, size_t row);
+
+/* Returns 0 after appending, in order, every change of the Bayes action in [lo, hi]
+ * where a is best at lo and b at hi; -1 when memory runs out. */
+int lop_switch_find(lop_switch_search *s, double lo, double hi, size_t a, size_t b,
+                    size_t row, lop_switch_list *out);
+
+/* Returns the Bayes action at x (ties to the earlier action). */
+size_t lop_switch_best(lop_switch_search *s, double x);
+
 #endif

@@ -344,6 +344,25 @@ int lop_config_set(lop_config *cfg, const char *section, const char *key,
     return add_entry(cfg, section, key, value, line);
 }
 
+size_t lop_config_remove(lop_config *cfg, const char *section, const char *key)
+{
+    size_t kept = 0, removed = 0;
+    for (size_t i = 0; i < cfg->n_entries; i++) {
+        lop_entry *e = &cfg->entries[i];
+        if (strcmp(e->section, section) == 0 && strcmp(e->key, key) == 0) {
+            free(e->section);
+            free(e->key);
+            free(e->value);
+            free(e->value_lines);
+            removed++;
+        } else {
+            cfg->entries[kept++] = *e;
+        }
+    }
+    cfg->n_entries = kept;
+    return removed;
+}
+
 void lop_config_free(lop_config *cfg)
 {
     if (!cfg)

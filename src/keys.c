@@ -11,11 +11,11 @@ static const lop_section_spec sections[] = {
     {"actions", false, false, true, "named choices, or an estimate of the state"},
     {"loss", false, false, true, "cost of each action in each state (lower is better)"},
     {"payoff", false, false, true, "gain of each action in each state (higher is better)"},
-    {"value", false, false, false, "value of extra information"},
-    {"sweep", true, true, false, "re-solve over a range of one or two settings"},
-    {"design", true, true, false, "find the setting that meets a goal"},
+    {"value", false, false, true, "value of extra information"},
+    {"sweep", true, true, true, "re-solve over a range of one or two settings"},
+    {"design", true, true, true, "find the setting that meets a goal"},
     {"rule", true, true, true, "another decision rule to compare with the Bayes rule"},
-    {"simulate", false, false, false, "simulated sessions"},
+    {"simulate", false, false, true, "simulated sessions"},
     {"output", false, false, true, "where to write JSON, CSV and the workbook"},
 };
 

@@ -1,9 +1,12 @@
 /* lopside: the command line. Parses arguments, runs the pipeline
  * config -> problem -> engine -> results -> writers, and alone prints errors. */
 #include <getopt.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
+#include <unistd.h>
 
 #include <gsl/gsl_errno.h>
 
@@ -12,13 +15,16 @@
 #include "lopside/engine.h"
 #include "lopside/keys.h"
 #include "lopside/problem.h"
+#include "lopside/progress.h"
 #include "lopside/provenance.h"
 #include "lopside/report.h"
+#include "lopside/simulate.h"
 
 enum { EXIT_DONE = 0, EXIT_RUNTIME = 1, EXIT_USAGE = 2 };
 
 typedef struct {
     const char *json, *workbook, *csv;
+    const char *default_workbook;  /* written when neither option nor [output] names one */
     int quiet;
 } run_options;
 
@@ -51,12 +57,15 @@ static const char usage_run[] =
     "measurement, switch points, Bayes risk against deciding on the prior alone).\n"
     "\n"
     "  --json PATH      write the results as JSON (overrides [output] json)\n"
-    "  --workbook PATH  write an XLSX workbook (not built yet in this version)\n"
-    "  --csv DIR        write CSV tables (not built yet in this version)\n"
+    "  --workbook PATH  write an XLSX workbook (overrides [output] workbook): Summary,\n"
+    "                   Case with live formulas, Rule, and Inputs (the file as given)\n"
+    "  --csv DIR        write one CSV file per table into folder DIR, created when\n"
+    "                   missing, with index.csv listing them (overrides [output] csv)\n"
     "  -q, --quiet      no report on stdout\n"
     "  -h, --help       this help\n"
     "\n"
-    "Output files are written whole or not at all; bad input writes nothing.\n"
+    "[output] paths are relative to FILE. Output files are written whole or not at\n"
+    "all; bad input writes nothing.\n"
     "`lopside keys` lists the format; README.md explains it with examples.\n";
 
 static const char usage_check[] =
@@ -67,11 +76,13 @@ static const char usage_check[] =
     "table. Exit 0 when valid, 2 with `FILE:LINE: [section] key: message` when not.\n";
 
 static const char usage_demo[] =
-    "Usage: lopside demo [--json PATH] [--quiet]\n"
+    "Usage: lopside demo [--json PATH] [--workbook PATH] [--csv DIR] [--quiet] [--print]\n"
     "\n"
     "Solves the built-in example (a yes/no tone-detection task with a payoff matrix),\n"
-    "kept inside the binary so it runs from any folder. `lopside demo --print` shows\n"
-    "the example's problem file, a starting point for your own.\n";
+    "kept inside the binary so it runs from any folder, and writes its workbook to\n"
+    "./lopside-demo.xlsx in the current folder (--workbook PATH writes it elsewhere).\n"
+    "`lopside demo --print` shows the example's problem file, a starting point for\n"
+    "your own.\n";
 
 static int print_error(const lop_error *err)
 {
@@ -90,6 +101,74 @@ static int usage_error(const char *usage, const char *fmt, const char *arg)
     return EXIT_USAGE;
 }
 
+/* Ctrl-C during a simulation: 128 + SIGINT, the shell's convention. */
+#define EXIT_INTERRUPTED 130
+
+/* Set by the SIGINT handler while a simulation runs; the simulation polls it. */
+static volatile sig_atomic_t stop_simulation;
+
+static void on_interrupt(int sig)
+{
+    (void)sig;
+    stop_simulation = 1;
+}
+
+static double seconds_now(void)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
+}
+
+/* Progress on stderr: only at a terminal, and only once the run has taken a second. */
+typedef struct {
+    bool tty, shown;
+    double start;
+    int last;
+} progress_line;
+
+static void show_progress(void *user, size_t done, size_t total)
+{
+    progress_line *pl = user;
+    int pct = (int)(100.0 * (double)done / (double)total);
+    if (!pl->tty || pct == pl->last || seconds_now() - pl->start < 1.0)
+        return;
+    fprintf(stderr,
+            "\r\033[Klopside: simulating sessions: %3d%% (Ctrl-C stops, writing nothing)",
+            pct);
+    fflush(stderr);
+    pl->shown = true;
+    pl->last = pct;
+}
+
+/* Returns EXIT_DONE after the [simulate] sessions, EXIT_INTERRUPTED when Ctrl-C stopped
+ * them (nothing may be written then), or -1 with err set. The SIGINT handler
+ * is installed only around the simulation; a second Ctrl-C ends the program at once. */
+static int simulate(const lop_problem *p, lop_results *results, lop_error *err)
+{
+    struct sigaction action, previous;
+    memset(&action, 0, sizeof action);
+    action.sa_handler = on_interrupt;
+    action.sa_flags = SA_RESETHAND;
+    sigemptyset(&action.sa_mask);
+    stop_simulation = 0;
+    bool handled = sigaction(SIGINT, &action, &previous) == 0;
+    progress_line pl = {isatty(STDERR_FILENO) == 1, false, seconds_now(), -1};
+    lop_simulate_control ctl = {&stop_simulation, show_progress, &pl};
+    lop_status st = lop_simulate_run(p, results, &ctl, err);
+    if (handled)
+        sigaction(SIGINT, &previous, NULL);
+    if (pl.shown)
+        fputs("\r\033[K", stderr);
+    if (st != LOP_OK)
+        return -1;
+    if (results->simulation.interrupted || stop_simulation) {
+        fputs("lopside: interrupted during the simulation; nothing was written\n", stderr);
+        return EXIT_INTERRUPTED;
+    }
+    return EXIT_DONE;
+}
+
 /* The whole pipeline for one problem file read into cfg. */
 static int solve_and_report(lop_config *cfg, const run_options *opt)
 {
@@ -100,30 +179,42 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     if (!p)
         goto fail;
     const char *json = opt->json ? opt->json : p->out_json;
-    if (opt->workbook || opt->csv) {
-        lop_error_input(&err, NULL, 0, NULL, NULL,
-                        "%s: the %s writer is not built yet in this version",
-                        opt->workbook ? "--workbook" : "--csv",
-                        opt->workbook ? "workbook" : "CSV");
-        goto fail;
-    }
-    results = lop_engine_solve(p, &err);
+    const char *workbook = opt->workbook ? opt->workbook : p->out_workbook;
+    const char *csv = opt->csv ? opt->csv : p->out_csv;
+    if (!workbook)
+        workbook = opt->default_workbook;
+    lop_progress_line line = {0};
+    lop_progress progress = lop_progress_stderr(&line);
+    results = lop_engine_solve_progress(p, &progress, &err);
     if (!results)
         goto fail;
-    if (p->out_workbook)
-        lop_results_warn(results, "[output] workbook: not written; the workbook writer is "
-                                  "not built yet in this version");
-    if (p->out_csv)
-        lop_results_warn(results, "[output] csv: not written; the CSV writer is not built "
-                                  "yet in this version");
+    if (p->simulate.present) {
+        int sim = simulate(p, results, &err);
+        if (sim == EXIT_INTERRUPTED) {
+            status = sim;
+            goto done;
+        }
+        if (sim != EXIT_DONE)
+            goto fail;
+    }
     lop_provenance prov;
     lop_provenance_fill(&prov, cfg->path, cfg->text, cfg->text_len);
     if (json && lop_report_json(json, p, results, &prov, &err) != LOP_OK)
         goto fail;
+    if (workbook && lop_report_xlsx(workbook, p, results, &prov, &err) != LOP_OK)
+        goto fail;
+    if (csv && lop_report_csv(csv, p, results, &prov, &err) != LOP_OK)
+        goto fail;
     if (!opt->quiet)
         lop_report_text(stdout, p, results);
+    if (!opt->quiet && (json || workbook || csv))
+        fputc('\n', stdout);
     if (json && !opt->quiet)
-        fprintf(stdout, "\nJSON written to %s\n", json);
+        fprintf(stdout, "JSON written to %s\n", json);
+    if (workbook && !opt->quiet)
+        fprintf(stdout, "Workbook written to %s\n", workbook);
+    if (csv && !opt->quiet)
+        fprintf(stdout, "CSV tables written to %s/ (index.csv lists them)\n", csv);
     if (fflush(stdout) != 0) {
         lop_error_run(&err, "cannot write the report to standard output");
         goto fail;
@@ -232,7 +323,7 @@ static char *demo_text(size_t *len)
 
 static int cmd_demo(int argc, char **argv)
 {
-    run_options opt = {0};
+    run_options opt = {.default_workbook = "./lopside-demo.xlsx"};
     int print_demo = 0;
     int st = parse_run_options(argc, argv, usage_demo, &opt, &print_demo);
     if (st != EXIT_DONE)

@@ -1,6 +1,7 @@
 #include <errno.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "lopside/outfile.h"
@@ -25,6 +26,15 @@ lop_status lop_outfile_open(lop_outfile *out, const char *path, lop_error *err)
         lop_outfile_abandon(out);
         return lop_error_run(err, "cannot write %s: %s", path, strerror(e));
     }
+    /* mkstemp makes the file private (0600); give it the mode a new file would get. */
+    mode_t mask = umask(0);
+    umask(mask);
+    if (fchmod(fd, 0666 & ~mask) != 0) {
+        int e = errno;
+        close(fd);
+        lop_outfile_abandon(out);
+        return lop_error_run(err, "cannot write %s: %s", path, strerror(e));
+    }
     out->file = fdopen(fd, "w");
     if (!out->file) {
         int e = errno;
@@ -35,20 +45,30 @@ lop_status lop_outfile_open(lop_outfile *out, const char *path, lop_error *err)
     return LOP_OK;
 }
 
-lop_status lop_outfile_commit(lop_outfile *out, lop_error *err)
+lop_status lop_outfile_finish(lop_outfile *out, lop_error *err)
 {
+    if (!out->file)
+        return LOP_OK;
     int failed = ferror(out->file) || fflush(out->file) != 0 || fsync(fileno(out->file)) != 0;
     int e = errno;
     failed |= fclose(out->file) != 0;
     if (!e)
         e = errno;
     out->file = NULL;
-    if (!failed && rename(out->tmp_path, out->path) != 0) {
-        failed = 1;
-        e = errno;
-    }
     if (failed) {
         lop_error_run(err, "cannot write %s: %s", out->path, strerror(e ? e : EIO));
+        lop_outfile_abandon(out);
+        return LOP_ERUN;
+    }
+    return LOP_OK;
+}
+
+lop_status lop_outfile_commit(lop_outfile *out, lop_error *err)
+{
+    if (lop_outfile_finish(out, err) != LOP_OK)
+        return LOP_ERUN;
+    if (rename(out->tmp_path, out->path) != 0) {
+        lop_error_run(err, "cannot write %s: %s", out->path, strerror(errno));
         lop_outfile_abandon(out);
         return LOP_ERUN;
     }

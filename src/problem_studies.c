@@ -5,16 +5,34 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "lopside/keys.h"
 #include "lopside/path.h"
 #include "lopside/strutil.h"
+#include "lopside/study.h"
 #include "problem_build.h"
 
 #define SWEEP_POINTS_MAX 100000
+/* Points of one sweep in all (x points times y points). */
+#define SWEEP_TOTAL_MAX 1000000
 #define SESSIONS_MAX 100000000
 #define TRIALS_MAX 100000000
 
-/* A path must name a key of a section present, or the section's key-to-be for a
- * believed override; rule.threshold is the one special path of sweeps. */
+/* The section of cfg a path starts with (longest match), or NULL. */
+static const char *path_section(const lop_config *cfg, const char *path)
+{
+    const char *best = NULL;
+    for (size_t i = 0; i < cfg->n_sections; i++) {
+        const char *name = cfg->sections[i].name;
+        size_t n = strlen(name);
+        if (strncmp(path, name, n) == 0 && path[n] == '.' && (!best || n > strlen(best)))
+            best = name;
+    }
+    return best;
+}
+
+/* A path must name a key of a section present: one the file gives, or one the format
+ * knows for that kind of section (`evidence.ear.repeats` may be absent and default to
+ * 1); rule.threshold is the one special path of sweeps. */
 static lop_status check_path(builder *b, const char *section, const lop_entry *e)
 {
     lop_config *copy = lop_config_copy(b->cfg);
@@ -22,7 +40,21 @@ static lop_status check_path(builder *b, const char *section, const lop_entry *e
         return pb_no_memory(b);
     lop_status st = lop_path_set(copy, e->value, "0", section, e->line, b->err);
     lop_config_free(copy);
-    return st;
+    if (st != LOP_OK)
+        return st;
+    const char *sec = path_section(b->cfg, e->value);
+    char key[128], kind[96];
+    const char *k = e->value + strlen(sec) + 1;
+    snprintf(key, sizeof key, "%.*s", (int)strcspn(k, "["), k);
+    snprintf(kind, sizeof kind, "%.*s", (int)strcspn(sec, "."), sec);
+    bool free_form = strcmp(kind, "loss") == 0 || strcmp(kind, "payoff") == 0 ||
+                     strcmp(kind, "rule") == 0;
+    if (lop_config_find(b->cfg, sec, key) || lop_keys_find(kind, key) || free_form)
+        return LOP_OK;
+    const char *near = lop_keys_suggest(kind, key);
+    return pb_error(b, e->line, section, e->key,
+                    "the path `%s` names nothing: [%s] has no key `%s`%s%s%s", e->value, sec,
+                    key, near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");
 }
 
 static lop_status take_path(builder *b, const char *section, const char *key, bool special_ok,
@@ -150,7 +182,82 @@ static lop_status build_sweep(builder *b, const lop_section *sec, lop_sweep_spec
         return b->err->status;
     if (strcmp(w->y, "rule.threshold") == 0)
         return pb_error(b, w->y_line, sec->name, "y", "rule.threshold may only be the x axis");
+    if ((double)w->x_points * (double)w->y_points > SWEEP_TOTAL_MAX)
+        return pb_error(b, pb_find(b, sec->name, "y_points")
+                               ? pb_find(b, sec->name, "y_points")->line
+                               : w->y_line,
+                        sec->name, "y_points",
+                        "x_points times y_points is %zu points; a sweep holds at most %d",
+                        w->x_points * w->y_points, SWEEP_TOTAL_MAX);
     return LOP_OK;
+}
+
+/* Every point of a sweep must give a valid problem: re-built here, so `check` finds a
+ * bad point as `run` would, and nothing is computed or written before. */
+static lop_status check_sweep_points(builder *b, const lop_sweep_spec *w)
+{
+    bool threshold = strcmp(w->x, "rule.threshold") == 0;
+    size_t nx = threshold ? 1 : w->x_points, ny = w->y ? w->y_points : 1;
+    const char *paths[2];
+    size_t n_paths = 0;
+    if (!threshold)
+        paths[n_paths++] = w->x;
+    if (w->y)
+        paths[n_paths++] = w->y;
+    if (!n_paths)
+        return LOP_OK;
+    lop_config *scratch = lop_config_copy(b->cfg);
+    if (!scratch)
+        return pb_no_memory(b);
+    char section[128];
+    snprintf(section, sizeof section, "sweep.%s", w->name);
+    lop_study_site site = {section, threshold ? "y" : "x", threshold ? w->y_line : w->x_line};
+    lop_status st = LOP_OK;
+    for (size_t j = 0; j < ny && st == LOP_OK; j++) {
+        for (size_t i = 0; i < nx && st == LOP_OK; i++) {
+            double values[2];
+            size_t k = 0;
+            if (!threshold)
+                values[k++] = lop_study_axis(w->x_from, w->x_to, w->x_points, i);
+            if (w->y)
+                values[k++] = lop_study_axis(w->y_from, w->y_to, w->y_points, j);
+            char where[64];
+            snprintf(where, sizeof where, "point %zu of %zu", j * nx + i + 1, nx * ny);
+            lop_problem *model =
+                lop_study_model_at(scratch, paths, values, n_paths, where, &site, b->err);
+            if (!model)
+                st = b->err->status;
+            lop_problem_free(model);
+        }
+    }
+    lop_config_free(scratch);
+    return st;
+}
+
+/* Both ends of a design's bracket must give a valid problem (the bracket is checked
+ * before any root is sought). */
+static lop_status check_design_bracket(builder *b, const lop_design_spec *d)
+{
+    lop_config *scratch = lop_config_copy(b->cfg);
+    if (!scratch)
+        return pb_no_memory(b);
+    char section[128];
+    snprintf(section, sizeof section, "design.%s", d->name);
+    lop_study_site site = {section, "vary", d->vary_line};
+    const char *paths[1] = {d->vary};
+    lop_status st = LOP_OK;
+    for (int end = 0; end < 2 && st == LOP_OK; end++) {
+        double v = end ? d->to : d->from;
+        lop_problem *model = lop_study_model_at(scratch, paths, &v, 1,
+                                                end ? "the bracket's `to`"
+                                                    : "the bracket's `from`",
+                                                &site, b->err);
+        if (!model)
+            st = b->err->status;
+        lop_problem_free(model);
+    }
+    lop_config_free(scratch);
+    return st;
 }
 
 static lop_status build_design(builder *b, const lop_section *sec, lop_design_spec *d)
@@ -299,8 +406,19 @@ lop_status pb_build_studies(builder *b)
     }
     if (build_value(b) != LOP_OK || build_simulate(b) != LOP_OK)
         return b->err->status;
+    for (size_t i = 0; i < p->n_sweeps; i++)
+        if (check_sweep_points(b, &p->sweeps[i]) != LOP_OK)
+            return b->err->status;
+    for (size_t i = 0; i < p->n_designs; i++)
+        if (check_design_bracket(b, &p->designs[i]) != LOP_OK)
+            return b->err->status;
     p->source = lop_config_copy(b->cfg);
     return p->source ? LOP_OK : pb_no_memory(b);
+}
+
+lop_problem *lop_problem_build_model(const lop_config *cfg, lop_error *err)
+{
+    return pb_build_nested(cfg, err);
 }
 
 void pb_free_studies(lop_problem *p)

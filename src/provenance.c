@@ -16,6 +16,10 @@ void lop_provenance_fill(lop_provenance *prov, const char *path, const char *tex
     for (size_t i = 0; i < sizeof digest; i++)
         snprintf(&prov->sha256[2 * i], 3, "%02x", digest[i]);
     prov->input_path = path;
+    prov->input_text = text;
+    prov->input_len = len;
+    prov->has_seed = false;
+    prov->seed = 0;
     time_t now = time(NULL);
     struct tm tm;
     gmtime_r(&now, &tm);

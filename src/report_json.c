@@ -3,6 +3,7 @@
 
 #include "lopside/outfile.h"
 #include "lopside/report.h"
+#include "report_studies.h"
 
 /* Adds `key` (a loss) and, for payoff problems, `payoff_key` with the sign flipped. */
 static void set_score(json_t *obj, const lop_problem *p, const char *key,
@@ -254,6 +255,102 @@ static json_t *rules_json(const lop_problem *p, const lop_results *r)
     return arr;
 }
 
+/* {ACTION: {STATE: value}} for finite states, {ACTION: value} for grid states: choice
+ * counts (rates = false) or shares of each state's trials (rates = true). */
+static json_t *choices_json(const lop_problem *p, const lop_simulated_rule *m, bool rates)
+{
+    json_t *obj = json_object();
+    size_t R = m->n_rate_states;
+    for (size_t a = 0; a < p->n_actions; a++) {
+        json_t *row = R == 1 && p->states_kind == LOP_STATES_GRID ? NULL : json_object();
+        for (size_t s = 0; s < R; s++) {
+            size_t n = m->choices[a * R + s];
+            json_t *v = !rates                  ? json_integer((json_int_t)n)
+                        : m->state_trials[s] > 0 ? json_real((double)n / (double)m->state_trials[s])
+                                                 : json_null();
+            if (row)
+                json_object_set_new(row, p->state_labels[s], v);
+            else
+                json_object_set_new(obj, p->actions[a], v);
+        }
+        if (row)
+            json_object_set_new(obj, p->actions[a], row);
+    }
+    return obj;
+}
+
+static json_t *pair_json(const double *v)
+{
+    return real_array(v, 2);
+}
+
+/* format.md's `simulation`, in the file's orientation. */
+static json_t *simulation_json(const lop_problem *p, const lop_results *r)
+{
+    const lop_simulation *sim = &r->simulation;
+    json_t *obj = json_object();
+    json_object_set_new(obj, "sessions", json_integer((json_int_t)sim->sessions));
+    json_object_set_new(obj, "trials", json_integer((json_int_t)sim->trials));
+    json_object_set_new(obj, "seed", json_integer((json_int_t)sim->seed));
+    if (sim->floor_given)
+        json_object_set_new(obj, "floor", json_real(sim->floor));
+    json_object_set_new(obj, "outside_grid", json_integer((json_int_t)sim->outside_grid));
+    json_object_set_new(obj, "threads", json_integer(sim->threads));
+    json_object_set_new(obj, "seconds", json_real(sim->seconds));
+    double n = (double)sim->sessions * (double)sim->trials;
+    json_object_set_new(obj, "trials_per_second",
+                        sim->seconds > 0 ? json_real(n / sim->seconds) : json_null());
+    json_t *rules = json_array();
+    for (size_t i = 0; i < sim->n_rules; i++) {
+        const lop_simulated_rule *m = &sim->rules[i];
+        json_t *o = json_object();
+        json_object_set_new(o, "rule", json_string(m->name));
+        json_object_set_new(o, "simulated", json_boolean(m->simulated));
+        json_object_set_new(o, "analytic", m->has_analytic ? json_real(m->analytic) : json_null());
+        if (!m->simulated) {
+            json_object_set_new(o, "not_simulated", json_string(m->not_simulated_why));
+            json_array_append_new(rules, o);
+            continue;
+        }
+        json_object_set_new(o, "mean_per_trial", json_real(m->mean_per_trial));
+        json_object_set_new(o, "sd_per_trial", json_real(m->sd_per_trial));
+        json_object_set_new(o, "ci95", pair_json(m->ci95));
+        json_object_set_new(o, "mean_per_session", json_real(m->mean_per_session));
+        json_object_set_new(o, "session_ci95", pair_json(m->session_ci95));
+        json_t *pct = json_object();
+        json_object_set_new(pct, "p05", json_real(m->p05));
+        json_object_set_new(pct, "p50", json_real(m->p50));
+        json_object_set_new(pct, "p95", json_real(m->p95));
+        json_object_set_new(o, "session_percentiles", pct);
+        if (sim->floor_given)
+            json_object_set_new(o, "below_floor", json_real(m->below_floor));
+        if (p->estimate) {
+            json_object_set_new(o, "mean_error", json_real(m->mean_error));
+            json_object_set_new(o, "mean_absolute_error", json_real(m->mean_absolute_error));
+        } else {
+            json_object_set_new(o, "rates", choices_json(p, m, true));
+            json_object_set_new(o, "counts", choices_json(p, m, false));
+            if (p->states_kind != LOP_STATES_GRID) {
+                json_t *st = json_object();
+                for (size_t s = 0; s < m->n_rate_states; s++)
+                    json_object_set_new(st, p->state_labels[s],
+                                        json_integer((json_int_t)m->state_trials[s]));
+                json_object_set_new(o, "state_trials", st);
+            }
+        }
+        json_t *hist = json_object();
+        json_object_set_new(hist, "edges", real_array(m->edges, m->n_bins + 1));
+        json_t *counts = json_array();
+        for (size_t b = 0; b < m->n_bins; b++)
+            json_array_append_new(counts, json_integer((json_int_t)m->counts[b]));
+        json_object_set_new(hist, "counts", counts);
+        json_object_set_new(o, "histogram", hist);
+        json_array_append_new(rules, o);
+    }
+    json_object_set_new(obj, "rules", rules);
+    return obj;
+}
+
 lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
                            const lop_provenance *prov, lop_error *err)
 {
@@ -272,6 +369,13 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     json_object_set_new(root, "case", case_json(p, r));
     json_object_set_new(root, "rule", r->has_rule ? rule_json(p, r) : json_null());
     json_object_set_new(root, "rules", rules_json(p, r));
+    lop_report_json_studies(root, p, r);
+    if (r->simulation.run)
+        json_object_set_new(root, "simulation", simulation_json(p, r));
+    json_t *timing = json_object();
+    json_object_set_new(timing, "case_seconds", json_real(r->seconds_case));
+    json_object_set_new(timing, "rule_seconds", json_real(r->seconds_rule));
+    json_object_set_new(root, "timing", timing);
     json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));
 
     lop_outfile out;

@@ -3,6 +3,7 @@
 
 #include "lopside/posterior.h"
 #include "lopside/report.h"
+#include "report_studies.h"
 
 /* Rows of a rule table shown at a terminal; JSON has them all. */
 #define ROWS_SHOWN 24
@@ -159,6 +160,7 @@ static void print_case(FILE *out, const lop_problem *p, const lop_results *r)
                 lop_problem_oriented(p, c->bayes_estimate_loss), score_unit(p));
     else
         print_choices(out, p, c);
+    lop_report_text_flatness(out, p, &r->case_flatness, "Estimates", "  ");
     fprintf(out, "  Value of perfect information for this case: %.6g %s\n", c->evpi,
             score_unit(p));
 }
@@ -315,6 +317,113 @@ static void print_compared(FILE *out, const lop_problem *p, const lop_results *r
     }
 }
 
+/* The widest name of the simulated rules, at least `at_least`. */
+static int simulated_name_width(const lop_simulation *sim, size_t at_least)
+{
+    for (size_t i = 0; i < sim->n_rules; i++)
+        if (strlen(sim->rules[i].name) > at_least)
+            at_least = strlen(sim->rules[i].name);
+    return (int)at_least;
+}
+
+static void print_simulated_choices(FILE *out, const lop_problem *p, const lop_simulation *sim,
+                                    int w)
+{
+    bool grid = p->states_kind == LOP_STATES_GRID;
+    int aw = (int)widest(p->actions, p->n_actions, 6);
+    fprintf(out, "  choices (share of %s)\n  %-*s  %-*s",
+            grid ? "all trials" : "each state's trials", w, "rule", aw, "action");
+    size_t R = grid ? 1 : p->n_states;
+    for (size_t s = 0; s < R; s++)
+        fprintf(out, "  %10s", grid ? "trials" : p->state_labels[s]);
+    fputc('\n', out);
+    for (size_t i = 0; i < sim->n_rules; i++) {
+        const lop_simulated_rule *m = &sim->rules[i];
+        if (!m->simulated)
+            continue;
+        for (size_t a = 0; a < p->n_actions; a++) {
+            fprintf(out, "  %-*s  %-*s", w, a ? "" : m->name, aw, p->actions[a]);
+            for (size_t s = 0; s < R; s++) {
+                if (m->state_trials[s])
+                    fprintf(out, "  %10.4f",
+                            (double)m->choices[a * R + s] / (double)m->state_trials[s]);
+                else
+                    fprintf(out, "  %10s", "-");
+            }
+            fputc('\n', out);
+        }
+    }
+}
+
+static void print_simulation(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    const lop_simulation *sim = &r->simulation;
+    const char *unit = score_unit(p), *word = lop_problem_orientation(p);
+    int w = simulated_name_width(sim, 8);
+    fprintf(out, "\nSimulation: %zu sessions of %zu trials, seed %lu; every rule decides the same "
+                 "%.0f trials\n",
+            sim->sessions, sim->trials, sim->seed, (double)sim->sessions * (double)sim->trials);
+    fprintf(out, "  %s per trial (%s)\n  %-*s  %12s  %-24s  %12s\n", word, unit, w, "rule",
+            "simulated", "95% interval", "analytic");
+    for (size_t i = 0; i < sim->n_rules; i++) {
+        const lop_simulated_rule *m = &sim->rules[i];
+        if (!m->simulated) {
+            fprintf(out, "  %-*s  not simulated: %s\n", w, m->name, m->not_simulated_why);
+            continue;
+        }
+        char interval[64];
+        snprintf(interval, sizeof interval, "%.6g to %.6g", m->ci95[0], m->ci95[1]);
+        fprintf(out, "  %-*s  %12.6g  %-24s", w, m->name, m->mean_per_trial, interval);
+        if (m->has_analytic)
+            fprintf(out, "  %12.6g  (%s the interval)\n", m->analytic,
+                    m->analytic >= m->ci95[0] && m->analytic <= m->ci95[1] ? "inside"
+                                                                           : "outside");
+        else
+            fprintf(out, "  %12s\n", "-");
+    }
+    size_t simulated = 0;
+    for (size_t i = 0; i < sim->n_rules; i++)
+        simulated += sim->rules[i].simulated;
+    if (!simulated)
+        return;
+    fprintf(out, "  %s per session of %zu trials (%s)\n  %-*s  %12s  %-24s  %10s  %10s  %10s",
+            word, sim->trials, unit, w, "rule", "mean", "95% interval", "5%", "50%", "95%");
+    char floor_head[48] = "";
+    if (sim->floor_given)
+        snprintf(floor_head, sizeof floor_head, "below %.6g", sim->floor);
+    fprintf(out, "%s%s\n", floor_head[0] ? "  " : "", floor_head);
+    for (size_t i = 0; i < sim->n_rules; i++) {
+        const lop_simulated_rule *m = &sim->rules[i];
+        if (!m->simulated)
+            continue;
+        char interval[64];
+        snprintf(interval, sizeof interval, "%.6g to %.6g", m->session_ci95[0],
+                 m->session_ci95[1]);
+        fprintf(out, "  %-*s  %12.6g  %-24s  %10.6g  %10.6g  %10.6g", w, m->name,
+                m->mean_per_session, interval, m->p05, m->p50, m->p95);
+        if (sim->floor_given)
+            fprintf(out, "  %*.2f%%", (int)strlen(floor_head) - 1, 100 * m->below_floor);
+        fputc('\n', out);
+    }
+    if (p->estimate) {
+        const char *u = p->unit[0] ? p->unit : "state units";
+        fprintf(out, "  estimates (%s)\n  %-*s  %12s  %20s\n", u, w, "rule", "mean error",
+                "mean absolute error");
+        for (size_t i = 0; i < sim->n_rules; i++) {
+            const lop_simulated_rule *m = &sim->rules[i];
+            if (m->simulated)
+                fprintf(out, "  %-*s  %12.6g  %20.6g\n", w, m->name, m->mean_error,
+                        m->mean_absolute_error);
+        }
+    } else {
+        print_simulated_choices(out, p, sim, w);
+    }
+    if (sim->seconds > 0)
+        fprintf(out, "  (%.3g s on %d thread%s: %.3g million trials per second)\n", sim->seconds,
+                sim->threads, sim->threads == 1 ? "" : "s",
+                (double)sim->sessions * (double)sim->trials / sim->seconds / 1e6);
+}
+
 void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
 {
     print_summary_line(out, p);
@@ -323,6 +432,9 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
         print_rule(out, p, r);
     if (r->n_compared && r->rule.computed)
         print_compared(out, p, r);
+    lop_report_text_studies(out, p, r);
+    if (r->simulation.run)
+        print_simulation(out, p, r);
     if (r->n_warnings) {
         fputs("\nWarnings\n", out);
         for (size_t i = 0; i < r->n_warnings; i++)

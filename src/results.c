@@ -74,6 +74,37 @@ void lop_results_free(lop_results *r)
     free(rule->grid_weight);
     free(rule->grid_loss);
     free(rule->switches);
+    for (size_t i = 0; r->simulation.rules && i < r->simulation.n_rules; i++) {
+        lop_simulated_rule *m = &r->simulation.rules[i];
+        free(m->not_simulated_why);
+        free(m->state_trials);
+        free(m->choices);
+        free(m->edges);
+        free(m->counts);
+    }
+    free(r->simulation.rules);
+    free(r->value.not_computed_why);
+    for (size_t i = 0; r->value.extra && i < r->value.n_extra; i++)
+        free(r->value.extra[i].not_computed_why);
+    free(r->value.extra);
+    for (size_t i = 0; r->value.next && i < r->value.n_next; i++)
+        free(r->value.next[i].not_computed_why);
+    free(r->value.next);
+    for (size_t i = 0; r->sweeps && i < r->n_sweeps; i++) {
+        lop_sweep_result *w = &r->sweeps[i];
+        for (size_t k = 0; w->points && k < w->nx * w->ny; k++) {
+            free(w->points[k].rates);
+            free(w->points[k].switches);
+        }
+        free(w->points);
+        free(w->rows);
+    }
+    free(r->sweeps);
+    for (size_t i = 0; r->designs && i < r->n_designs; i++) {
+        free(r->designs[i].seen);
+        free(r->designs[i].note);
+    }
+    free(r->designs);
     for (size_t i = 0; i < r->n_warnings; i++)
         free(r->warnings[i]);
     free(r->warnings);

@@ -39,6 +39,11 @@ run_suite "unit tests (Check)" "$UNIT_TESTS"
 run_suite "input catalogue (tests/cases)" sh tests/run_cases.sh
 run_suite "examples" sh tests/run_examples.sh
 run_suite "scipy references (tests/reference)" "$PYTHON" tests/reference/check_finite.py
+run_suite "value, sweeps and designs (tests/reference/check_studies.py)" "$PYTHON" \
+    tests/reference/check_studies.py
+run_suite "simulation against scipy (tests/reference)" "$PYTHON" tests/reference/check_simulation.py
+run_suite "scipy references, grids (tests/reference)" "$PYTHON" tests/reference/check_grid.py
+run_suite "workbook and CSV read back (openpyxl, csv)" "$PYTHON" tests/reference/check_workbook.py
 
 echo
 echo "tests: $total_pass passed, $total_fail failed"

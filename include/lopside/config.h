@@ -60,6 +60,9 @@ const lop_section *lop_config_section(const lop_config *cfg, const char *name);
 int lop_config_set(lop_config *cfg, const char *section, const char *key,
                    const char *value, int line);
 
+/* Returns the number of entries removed: every entry of section/key. */
+size_t lop_config_remove(lop_config *cfg, const char *section, const char *key);
+
 /* Frees cfg; NULL is a no-op. */
 void lop_config_free(lop_config *cfg);
 

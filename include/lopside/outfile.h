@@ -16,8 +16,14 @@ typedef struct {
 /* Returns LOP_OK with out->file open on a temporary beside path, or LOP_ERUN naming path. */
 lop_status lop_outfile_open(lop_outfile *out, const char *path, lop_error *err);
 
-/* Returns LOP_OK after flushing, closing and renaming over the target; on failure the
- * temporary is removed, the target is untouched, and err names the path. */
+/* Returns LOP_OK after flushing and closing the temporary, which stays for a later
+ * lop_outfile_commit (so several files can be renamed into place together, or another
+ * library can write the temporary by name); on failure the temporary is removed, the
+ * target is untouched, and err names the path. */
+lop_status lop_outfile_finish(lop_outfile *out, lop_error *err);
+
+/* Returns LOP_OK after flushing, closing (unless finished) and renaming over the target;
+ * on failure the temporary is removed, the target is untouched, and err names the path. */
 lop_status lop_outfile_commit(lop_outfile *out, lop_error *err);
 
 /* Removes the temporary and forgets out; safe after commit or on a zeroed struct. */

@@ -168,6 +168,11 @@ typedef struct lop_problem {
 /* Returns a validated problem built from cfg, or NULL with err set. */
 lop_problem *lop_problem_build(const lop_config *cfg, lop_error *err);
 
+/* Returns the model of cfg alone: the problem without its [rule.NAME], [value], sweeps,
+ * designs, [simulate] or outputs, as sweeps, designs and the value of information
+ * re-solve it after changing entries; NULL with err set. */
+lop_problem *lop_problem_build_model(const lop_config *cfg, lop_error *err);
+
 /* Returns the loss of choice a in state s (choices only). */
 static inline double lop_problem_loss(const lop_problem *p, size_t a, size_t s)
 {

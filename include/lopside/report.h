@@ -22,4 +22,26 @@ void lop_report_problem(FILE *out, const lop_problem *p);
 lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
                            const lop_provenance *prov, lop_error *err);
 
+/* Writes to buf (size bytes, always terminated) how rule row `row` reads: "swab = flagged"
+ * for one repeat, "swab: clear 1, flagged 1" for several, channels joined by "; ";
+ * "" when the problem has no outcome-table channel. */
+void lop_report_row_given(char *buf, size_t size, const lop_problem *p,
+                          const lop_rule_result *rule, size_t row);
+
+/* Returns the name of a channel's kind: "table", or its noise family ("gaussian", ...). */
+const char *lop_report_noise_name(const lop_channel *c);
+
+/* Returns LOP_OK after writing one CSV file per table and index.csv into folder dir
+ * (created with any missing parent). All files are written to temporaries and renamed
+ * into place only when every one is complete; on failure no file in dir has changed
+ * and err names the path. */
+lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_results *r,
+                          const lop_provenance *prov, lop_error *err);
+
+/* Returns LOP_OK after writing the XLSX workbook (Summary, Case, Rule, Inputs) to path
+ * through a temporary in the same folder, renamed over path when complete; on failure
+ * the old file is untouched and err names the path and libxlsxwriter's reason. */
+lop_status lop_report_xlsx(const char *path, const lop_problem *p, const lop_results *r,
+                           const lop_provenance *prov, lop_error *err);
+
 #endif

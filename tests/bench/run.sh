@@ -3,36 +3,10 @@
 # compare ratios within one run only (the machine is shared and noisy).
 set -eu
 : "${LOPSIDE:=build/bench/lopside}"
+export OMP_NUM_THREADS="${OMP_NUM_THREADS:-$(nproc)}"
 RUNS=${RUNS:-5}
 dir=$(mktemp -d)
 trap 'rm -rf "$dir"' EXIT
-
-# A target-position estimate with a tolerance band: 10,000 grid states and 1,000
-# measurement points, the size design.md sets the first performance target at.
-cat >"$dir/tolerance.ini" <<'INI'
-[problem]
-title = Bench: tolerance band, 10,000 states x 1,000 measurements
-unit = mm
-score_unit = points
-[states]
-from = -50
-to = 50
-points = 10000
-[prior]
-family = normal
-mean = 0
-sd = 12
-[evidence.vision]
-noise = gaussian
-sd = 4
-grid_points = 1000
-[actions]
-estimate = yes
-[loss]
-curve = tolerance
-half_width = 2
-outside = 1
-INI
 
 median_seconds() {
     for i in $(seq "$RUNS"); do
@@ -43,6 +17,7 @@ median_seconds() {
     done | sort -n | awk '{ a[NR] = $1 } END { printf "%.3f", a[int((NR + 1) / 2)] }'
 }
 
-echo "lopside bench ($(nproc) cores, median of $RUNS runs)"
-t=$(median_seconds "$LOPSIDE" run "$dir/tolerance.ini" --quiet)
-echo "tolerance loss, 10,000 states x 1,000 measurements, whole run: $t s"
+: "${FLOOR:=build/bench/floor}" "${PYTHON:=/usr/bin/python3}"
+"$PYTHON" tests/bench/bench.py "$LOPSIDE" "$FLOOR" "$RUNS"
+"$PYTHON" tests/bench/simulate.py "$LOPSIDE" "$RUNS"
+"$PYTHON" tests/bench/sweep.py "$LOPSIDE" "$RUNS"

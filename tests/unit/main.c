@@ -47,6 +47,10 @@ int main(void)
     srunner_add_suite(runner, suite_outfile());
     srunner_add_suite(runner, suite_curve());
     srunner_add_suite(runner, suite_prior());
+    srunner_add_suite(runner, suite_value());
+    srunner_add_suite(runner, suite_sweep());
+    srunner_add_suite(runner, suite_design());
+    srunner_add_suite(runner, suite_simulate());
     srunner_run_all(runner, CK_NORMAL);
     int run = srunner_ntests_run(runner);
     int failed = srunner_ntests_failed(runner);

@@ -36,5 +36,9 @@ Suite *suite_outfile(void);
 Suite *suite_strutil(void);
 Suite *suite_curve(void);
 Suite *suite_prior(void);
+Suite *suite_value(void);
+Suite *suite_sweep(void);
+Suite *suite_design(void);
+Suite *suite_simulate(void);
 
 #endif

@@ -1,0 +1,38 @@
+/* What sweeps, designs and the value of information share: re-building the model of a
+ * problem with some of its numbers changed (paths), and naming the point in errors. */
+#ifndef LOPSIDE_STUDY_H
+#define LOPSIDE_STUDY_H
+
+#include <stddef.h>
+
+#include "lopside/config.h"
+#include "lopside/error.h"
+#include "lopside/problem.h"
+
+/* Writes to buf the shortest decimal text (%.15g to %.17g) that reads back as v. */
+void lop_study_number(double v, char *buf, size_t size);
+
+/* Returns the i-th of n evenly spaced values from `from` to `to` (both included). */
+double lop_study_axis(double from, double to, size_t n, size_t i);
+
+/* Returns the expected loss with the state known under p's prior: a design's Bayes risk
+ * minus this is its EVPI. */
+double lop_study_perfect_risk(const lop_problem *p);
+
+/* Where an error at a point is reported: the study's section, key and line. */
+typedef struct {
+    const char *section;     /* e.g. "sweep.penalty" */
+    const char *key;         /* e.g. "x", "vary" */
+    int line;
+} lop_study_site;
+
+/* Returns the model (lop_problem_build_model) of cfg after setting paths[k] to values[k]
+ * for every k < n; cfg is the caller's scratch copy of the problem's source, and a later
+ * call overwrites what an earlier one set. NULL with err set: an input error at `site`
+ * that names each path and value, `where` (e.g. "point 3 of 21"), and the re-built
+ * problem's own complaint; a run error when memory runs out. */
+lop_problem *lop_study_model_at(lop_config *cfg, const char *const *paths,
+                                const double *values, size_t n, const char *where,
+                                const lop_study_site *site, lop_error *err);
+
+#endif

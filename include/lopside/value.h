@@ -1,0 +1,27 @@
+/* [value]: what information is worth. EVPI of the design, the expected value of sample
+ * information of n more measurements of each channel (preposterior analysis, exact on
+ * the rule's grids), its net value after cost, the best purchase, and the value of one
+ * more measurement for the case at hand. */
+#ifndef LOPSIDE_VALUE_H
+#define LOPSIDE_VALUE_H
+
+#include "lopside/error.h"
+#include "lopside/problem.h"
+#include "lopside/progress.h"
+#include "lopside/results.h"
+
+/* Returns LOP_OK after filling r->value for p's [value] (nothing without one); r holds p's
+ * solved case and rule. Parts that cannot be computed say why. LOP_ERUN when memory
+ * runs out. */
+lop_status lop_value_solve(const lop_problem *p, lop_results *r, const lop_progress *progress,
+                           lop_error *err);
+
+/* Returns the value of one more measurement of channel `channel` of p for a decider
+ * whose belief is post: prior-only risk minus Bayes risk of the problem whose prior is
+ * post and whose one channel is that one, measured once (Raiffa & Schlaifer 1961,
+ * preposterior analysis). Sets *computed false (with *why, the caller frees) when that
+ * rule cannot be computed; NAN with err set when memory runs out. */
+double lop_value_of_next(const lop_problem *p, size_t channel, const double *post, bool *computed,
+                      char **why, lop_error *err);
+
+#endif

@@ -1,0 +1,433 @@
+#!/usr/bin/python3
+"""Independent scipy/numpy reference for lopside's [value], [sweep.NAME] and [design.NAME].
+
+Every number checked here is recomputed from the problem file's own parameters with scipy,
+numpy or a closed form named beside it, never from an earlier lopside output:
+
+1. rule.threshold sweeps of equal-variance detection problems (random d', sd, repeats,
+   prior and payoffs): per threshold t the false-alarm rate F = norm.sf(t, mu_n, sd) and
+   hit rate H = norm.sf(t, mu_s, sd) (the ROC), the expected payoff, and Macmillan &
+   Creelman's (Detection Theory: A User's Guide) c = -(z(H) + z(F))/2, beta as the ratio
+   of normal densities at z(H) and z(F), d' = z(H) - z(F); the Bayes threshold is Green &
+   Swets' (1966) criterion d'/2 + ln(beta)/d' (in sd units), and the thresholds within
+   1%, 5%, 10% end where scipy's expected payoff meets the level. Also Macmillan &
+   Creelman's worked numbers: H = 0.84, F = 0.16 give d' of about 1.99.
+2. Designs of the same problems: the false-alarm payoff that puts the switch point at x
+   (Green & Swets solved for C_fa in closed form), and the one that makes the rate of
+   saying yes R (scipy.optimize.brentq on P(n) Q(x) + P(s) Q(x - d')).
+3. [value] of detection problems: EVSI of n more repeats is the difference of Green &
+   Swets' Bayes payoffs with d' sqrt(k) for k repeats; EVPI against the payoff of
+   knowing the state. Normal prior, gaussian noise, squared loss: EVSI = V(1) - V(1 + n)
+   with V(k) = (1/tau^2 + k/sigma^2)^-1 (Raiffa & Schlaifer 1961).
+4. Random finite problems: 0 <= EVSI <= EVPI, EVSI never falls as n grows (equal sds),
+   and the net value and best purchase follow from the EVSI and the cost.
+5. Choice rates on the generic path: poisson counts over two numeric states, where the
+   rule's grid is the whole numbers and P(a | s) is an exact sum of scipy's pmf; and grid
+   states with a gaussian prior, where P(long) is the sum over the grid's states of normal
+   tails beyond the switch point (and close to the continuous predictive tail). The grid
+   sweep gives the same numbers on one thread as on two.
+
+Run from the repository root:
+    LOPSIDE=build/lopside /usr/bin/python3 tests/reference/check_studies.py
+Prints one line per check group and ends with `N passed, M failed`; exits 1 on any failure.
+"""
+
+import json
+import math
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+import traceback
+
+import numpy as np
+from scipy import optimize, stats
+
+LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
+SEED = 20240612
+
+# Tolerances, each with its reason.
+# Normal CDF values computed by GSL and by scipy agree to ~1e-15 relative; sums of a few
+# of them times payoffs of size <= 20: 1e-12 of the payoff scale.
+CDF_TOL = 1e-12
+# z-scores from inverse CDFs lose digits in the tails (rates down to ~1e-4): 1e-8.
+Z_TOL = 1e-8
+# Roots: lopside's Brent stops at 1e-12 (relative) of the bracket or threshold; the root
+# of a smooth function is then good to ~1e-10. 1e-8 leaves a margin, still far below any
+# grid spacing.
+ROOT_TOL = 1e-8
+# Value of information on the exact path: differences of exact Bayes risks, 1e-10 of the
+# payoff scale (each risk is a sum of normal CDF terms at switch points found to 1e-12).
+VALUE_TOL = 1e-10
+# Squared loss on a state grid of spacing h: Sheppard's h^2/12 on the prior variance and
+# the rounding of estimates to the grid (another h^2/12) change the risks by under 2e-5
+# of their size with the grids used below; 2e-4 relative leaves a margin.
+GRID_VALUE_TOL = 2e-4
+# Counts: the rule's whole numbers leave out at most 1e-6 of the predictive probability.
+COUNT_TOL = 2e-6
+
+
+class Tally:
+    """Counts checks per group and prints one line per group."""
+
+    def __init__(self):
+        self.groups, self.order = {}, []
+
+    def check(self, group, ok, detail=""):
+        g = self.groups.get(group)
+        if g is None:
+            g = self.groups[group] = {"n": 0, "failures": []}
+            self.order.append(group)
+        g["n"] += 1
+        if not ok:
+            g["failures"].append(detail)
+
+    def close(self, group, got, want, tol, detail=""):
+        ok = isinstance(got, (int, float)) and abs(got - want) <= tol * max(1.0, abs(want))
+        self.check(group, ok, f"{detail}: lopside {got!r}, reference {want!r} (tol {tol})")
+
+    def report(self):
+        passed = failed = 0
+        for name in self.order:
+            g = self.groups[name]
+            nf = len(g["failures"])
+            print(f"{'FAIL' if nf else 'ok'} {name}: {g['n'] - nf} of {g['n']}")
+            for f in g["failures"][:5]:
+                print(f"    {f}")
+            passed += g["n"] - nf
+            failed += nf
+        return passed, failed
+
+
+def run(folder, name, text, threads=None):
+    path = os.path.join(folder, name + ".ini")
+    with open(path, "w", encoding="utf-8") as f:
+        f.write(text)
+    out = os.path.join(folder, name + ".json")
+    env = dict(os.environ, OMP_NUM_THREADS=str(threads)) if threads else None
+    proc = subprocess.run([LOPSIDE, "run", path, "--json", out, "--quiet"],
+                          capture_output=True, text=True, check=False, env=env)
+    if proc.returncode != 0:
+        raise RuntimeError(f"{name}: exit {proc.returncode}: {proc.stderr.strip()}")
+    with open(out, encoding="utf-8") as f:
+        return json.load(f)
+
+
+def detection_text(ps, mu, sd, repeats, payoff, extra):
+    """Two labelled states (noise N(0, sd), signal N(mu, sd)), `repeats` measurements."""
+    vc, cm, cf, vh = payoff
+    return (f"[problem]\ntitle = detection\nscore_unit = points\n[states]\nlabels = noise, signal\n"
+            f"[prior]\nweights = {1 - ps!r}, {ps!r}\n"
+            f"[evidence.ear]\nnoise = gaussian\nmean = 0, {mu!r}\nsd = {sd!r}\n"
+            f"repeats = {repeats}\n"
+            f"[actions]\nlabels = say_no, say_yes\n"
+            f"[payoff]\nsay_no = {vc!r}, {-cm!r}\nsay_yes = {-cf!r}, {vh!r}\n{extra}")
+
+
+def threshold_payoff(ps, mu, sd, payoff, t):
+    """Expected payoff of saying yes at or above t (Green & Swets 1966)."""
+    vc, cm, cf, vh = payoff
+    return ((1 - ps) * (vc * stats.norm.cdf(t, 0, sd) - cf * stats.norm.sf(t, 0, sd))
+            + ps * (vh * stats.norm.sf(t, mu, sd) - cm * stats.norm.cdf(t, mu, sd)))
+
+
+def criterion(ps, mu, sd, payoff):
+    """Green & Swets' optimal criterion in measurement units: sd (d'/2 + ln(beta)/d')."""
+    vc, cm, cf, vh = payoff
+    d = mu / sd
+    beta = ((1 - ps) / ps) * (vc + cf) / (vh + cm)
+    return sd * (d / 2 + math.log(beta) / d)
+
+
+def random_detection(rng):
+    ps = float(rng.uniform(0.2, 0.8))
+    sd = float(rng.uniform(0.5, 2.0))
+    mu = float(sd * rng.uniform(0.7, 2.5))
+    repeats = int(rng.integers(1, 4))
+    payoff = tuple(float(v) for v in rng.uniform(0.5, 5.0, size=4))
+    return ps, mu, sd, repeats, payoff
+
+
+def check_thresholds(folder, tally, rng):
+    for k in range(8):
+        ps, mu, sd, repeats, payoff = random_detection(rng)
+        sdn = sd / math.sqrt(repeats)
+        lo, hi = -2 * sdn, mu + 2 * sdn
+        out = run(folder, f"roc{k}", detection_text(
+            ps, mu, sd, repeats, payoff,
+            f"[sweep.roc]\nx = rule.threshold\nx_from = {lo!r}\nx_to = {hi!r}\nx_points = 11\n"))
+        sw = out["sweeps"][0]
+        d = mu / sdn
+        tally.close("threshold sweeps: d'", sw["d_prime"], d, CDF_TOL, f"roc{k}")
+        for pt in sw["points"]:
+            t = pt["x"]
+            F, H = stats.norm.sf(t, 0, sdn), stats.norm.sf(t, mu, sdn)
+            tally.close("threshold sweeps: ROC (hit, false alarm)", pt["hit_rate"], H, CDF_TOL,
+                        f"roc{k} t={t}")
+            tally.close("threshold sweeps: ROC (hit, false alarm)", pt["false_alarm_rate"], F,
+                        CDF_TOL, f"roc{k} t={t}")
+            tally.close("threshold sweeps: rates per action and state",
+                        pt["rates"]["say_no"]["signal"], 1 - H, CDF_TOL, f"roc{k} t={t}")
+            tally.close("threshold sweeps: expected payoff", pt["expected_payoff"],
+                        threshold_payoff(ps, mu, sdn, payoff, t), CDF_TOL, f"roc{k} t={t}")
+            zH, zF = stats.norm.ppf(H), stats.norm.ppf(F)
+            tally.close("threshold sweeps: c = -(z(H) + z(F))/2", pt["c"], -(zH + zF) / 2, Z_TOL,
+                        f"roc{k} t={t}")
+            tally.close("threshold sweeps: beta = phi(z(H))/phi(z(F))", pt["beta"],
+                        stats.norm.pdf(zH) / stats.norm.pdf(zF), Z_TOL, f"roc{k} t={t}")
+            tally.close("threshold sweeps: d' = z(H) - z(F)", zH - zF, sw["d_prime"], Z_TOL,
+                        f"roc{k} t={t}")
+        x = criterion(ps, mu, sdn, payoff)
+        tally.close("threshold sweeps: Bayes threshold (Green & Swets)", sw["bayes_threshold"], x,
+                    ROOT_TOL, f"roc{k}")
+        best = threshold_payoff(ps, mu, sdn, payoff, x)
+        tally.close("threshold sweeps: Bayes threshold's payoff",
+                    sw["bayes_threshold_expected_payoff"], best, CDF_TOL, f"roc{k}")
+        for r in sw["flatness"]["ranges"]:
+            level = best - r["within"] * abs(best)
+            for end in ("from", "to"):
+                if r[end] is None:
+                    # Endless: the payoff never falls below the level on that side; the
+                    # limit there is always taking one action.
+                    limit = (1 - ps) * payoff[0] - ps * payoff[1] if end == "to" else \
+                        -(1 - ps) * payoff[2] + ps * payoff[3]
+                    tally.check("threshold sweeps: flatness ranges", limit >= level - 1e-12,
+                                f"roc{k} {end} endless but the limit {limit} < {level}")
+                    continue
+                tally.close("threshold sweeps: flatness ranges",
+                            threshold_payoff(ps, mu, sdn, payoff, r[end]), level, ROOT_TOL,
+                            f"roc{k} within {r['within']} {end}")
+
+
+def check_macmillan_creelman(folder, tally):
+    # H = 0.84, F = 0.16: z(H) = 0.994, z(F) = -0.994, d' = 1.99 (Macmillan & Creelman,
+    # from memory; the book's table rounds z to two decimals). A signal mean of
+    # z(0.84) - z(0.16) and a threshold at z(0.84) produce exactly those rates.
+    mu = stats.norm.ppf(0.84) - stats.norm.ppf(0.16)
+    t = stats.norm.ppf(0.84)
+    out = run(folder, "mc", detection_text(
+        0.5, float(mu), 1.0, 1, (1, 1, 1, 1),
+        f"[sweep.roc]\nx = rule.threshold\nx_from = {float(t)!r}\nx_to = 3\nx_points = 2\n"))
+    sw = out["sweeps"][0]
+    pt = sw["points"][0]
+    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["hit_rate"], 0.84, 1e-12, "H")
+    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["false_alarm_rate"], 0.16, 1e-12,
+                "F")
+    tally.check("Macmillan & Creelman: d' about 1.99", round(sw["d_prime"], 2) == 1.99,
+                f"d' = {sw['d_prime']}")
+    # Unbiased there: c = 0, beta = 1.
+    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["c"], 0.0, 1e-9, "c")
+    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["beta"], 1.0, 1e-9, "beta")
+
+
+def check_designs(folder, tally, rng):
+    for k in range(6):
+        ps, mu, sd, repeats, payoff = random_detection(rng)
+        sdn = sd / math.sqrt(repeats)
+        vc, cm, cf, vh = payoff
+        d = mu / sdn
+        # A target switch point from a false-alarm cost inside the bracket [0.2, 30].
+        cf_true = float(rng.uniform(0.5, 20))
+        x = criterion(ps, mu, sdn, (vc, cm, cf_true, vh))
+        # A target rate of saying yes from another cost inside the bracket.
+        xr = criterion(ps, mu, sdn, (vc, cm, float(rng.uniform(0.5, 20)), vh))
+        rate = (1 - ps) * stats.norm.sf(xr, 0, sdn) + ps * stats.norm.sf(xr, mu, sdn)
+        out = run(folder, f"design{k}", detection_text(
+            ps, mu, sd, repeats, payoff,
+            f"[design.switch]\nvary = payoff.say_yes[1]\nfrom = -30\nto = -0.2\n"
+            f"goal = switch_point\nequals = {x!r}\n"
+            f"[design.rate]\nvary = payoff.say_yes[1]\nfrom = -30\nto = -0.2\n"
+            f"goal = choice_rate.say_yes\nequals = {rate!r}\n"))
+        # Green & Swets solved for C_fa: beta = exp((x/sd - d'/2) d'),
+        # C_fa = beta (P(s)/P(n)) (V_hit + C_miss) - V_cr.
+        beta = math.exp((x / sdn - d / 2) * d)
+        want = beta * (ps / (1 - ps)) * (vh + cm) - vc
+        got = out["designs"][0]
+        tally.check("designs: switch point reached", got["reached"] is True, f"design{k}")
+        tally.close("designs: switch point (Green & Swets for C_fa)", -got["value"], want,
+                    ROOT_TOL, f"design{k}")
+
+        def yes_rate(c):
+            xc = criterion(ps, mu, sdn, (vc, cm, c, vh))
+            return (1 - ps) * stats.norm.sf(xc, 0, sdn) + ps * stats.norm.sf(xc, mu, sdn) - rate
+        want = optimize.brentq(yes_rate, 0.2, 30, xtol=1e-14, rtol=1e-14)
+        got = out["designs"][1]
+        tally.check("designs: choice rate reached", got["reached"] is True, f"design{k}")
+        tally.close("designs: choice rate (brentq)", -got["value"], want, ROOT_TOL, f"design{k}")
+
+
+def gs_payoff(ps, d, payoff):
+    """Bayes payoff of equal-variance detection with sensitivity d (sd units)."""
+    x = criterion(ps, d, 1.0, payoff)
+    return threshold_payoff(ps, d, 1.0, payoff, x)
+
+
+def check_value_detection(folder, tally, rng):
+    for k in range(6):
+        ps, mu, sd, repeats, payoff = random_detection(rng)
+        cost = float(rng.uniform(0, 0.2))
+        out = run(folder, f"value{k}", detection_text(
+            ps, mu, sd, repeats, payoff, f"[value]\nup_to = 4\ncost = {cost!r}\n"))
+        v = out["value"]
+        d1 = mu / sd
+        given = gs_payoff(ps, d1 * math.sqrt(repeats), payoff)
+        vc, cm, cf, vh = payoff
+        perfect = (1 - ps) * vc + ps * vh
+        tally.close("value: EVPI of detection", v["evpi"], perfect - given, VALUE_TOL, f"value{k}")
+        best = None
+        for e in v["extra"]:
+            more = gs_payoff(ps, d1 * math.sqrt(repeats + e["n"]), payoff)
+            tally.close("value: EVSI of detection (Green & Swets with d' sqrt(k))", e["evsi"],
+                        more - given, VALUE_TOL, f"value{k} n={e['n']}")
+            tally.close("value: net = EVSI - n cost", e["net"], e["evsi"] - e["n"] * cost, 1e-12,
+                        f"value{k} n={e['n']}")
+            if e["net"] > 0 and (best is None or e["net"] > best[1]):
+                best = (e["n"], e["net"])
+        tally.check("value: best purchase", (v["best"] is None) == (best is None) and
+                    (best is None or v["best"]["n"] == best[0]), f"value{k}: {v['best']} {best}")
+
+
+def check_value_normal(folder, tally):
+    for k, (tau, sigma) in enumerate([(10.0, 5.0), (4.0, 8.0), (20.0, 3.0)]):
+        # Grid step a hundredth of the smaller sd: rounding estimates to the grid adds
+        # h^2/12 to a risk V(1) >= min(tau, sigma)^2/2, under 2e-5 of it.
+        h = min(tau, sigma) / 100
+        text = (f"[problem]\ntitle = normal\n[states]\nfrom = {-6 * tau!r}\nto = {6 * tau!r}\n"
+                f"step = {h!r}\n[prior]\nfamily = normal\nmean = 0\nsd = {tau!r}\n"
+                f"[evidence.eye]\nnoise = gaussian\nsd = {sigma!r}\n"
+                f"[actions]\nestimate = yes\n[loss]\ncurve = squared\n[value]\nup_to = 3\n")
+        out = run(folder, f"normal{k}", text)
+        v = out["value"]
+
+        def var(n):
+            return 1 / (1 / tau ** 2 + n / sigma ** 2)
+        tally.close("value: EVPI, squared loss (posterior variance)", v["evpi"], var(1),
+                    GRID_VALUE_TOL, f"normal{k}")
+        for e in v["extra"]:
+            tally.close("value: EVSI, normal prior and noise (Raiffa & Schlaifer)", e["evsi"],
+                        var(1) - var(1 + e["n"]), GRID_VALUE_TOL, f"normal{k} n={e['n']}")
+            # The textbook form tau^2 - (1/tau^2 + m/sigma^2)^-1 for m = 1 + n measurements
+            # against none: the design's own evidence plus the n more.
+            tally.close("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (evidence + EVSI)",
+                        out["rule"]["value_of_evidence"] + e["evsi"], tau ** 2 - var(1 + e["n"]),
+                        GRID_VALUE_TOL, f"normal{k} m={1 + e['n']}")
+        # Nothing observed: one more measurement for the case is worth tau^2 - var(1).
+        tally.close("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (case, nothing observed)",
+                    v["case_next"][0]["value"], tau ** 2 - var(1), GRID_VALUE_TOL, f"normal{k}")
+
+
+def check_value_properties(folder, tally, rng):
+    names = ["a", "b", "c"]
+    for k in range(12):
+        S, A = int(rng.integers(2, 4)), int(rng.integers(2, 4))
+        means = rng.uniform(0, 3, size=S)
+        lines = ["[problem]", "title = random", "[states]", "labels = " + ", ".join(names[:S]),
+                 "[prior]", "weights = " + ", ".join(f"{w:.6f}" for w in rng.uniform(0.1, 1, S)),
+                 "[evidence.meter]", "noise = gaussian", "mean = " +
+                 ", ".join(f"{m:.5f}" for m in means), f"sd = {rng.uniform(0.5, 1.5):.5f}",
+                 f"observed = {rng.uniform(0, 3):.4f}"]
+        if rng.uniform() < 0.5:
+            lines += ["[evidence.swab]", "outcomes = clear, flagged"]
+            for s in range(S):
+                f = rng.uniform(0.05, 0.95)
+                lines.append(f"given.{names[s]} = {1 - f:.6f}, {f:.6f}")
+        lines += ["[actions]", "labels = " + ", ".join("xyz"[:A]), "[loss]"]
+        for a in range(A):
+            lines.append(f"{'xyz'[a]} = " + ", ".join(f"{x:.4f}" for x in rng.uniform(0, 10, S)))
+        cost = float(rng.uniform(0, 0.3))
+        lines += ["[value]", "up_to = 3", f"cost = {cost!r}"]
+        out = run(folder, f"prop{k}", "\n".join(lines) + "\n")
+        v = out["value"]
+        tol = 1e-11
+        tally.check("value: 0 <= EVPI", v["evpi"] >= -tol, f"prop{k}: {v['evpi']}")
+        by = {}
+        for e in v["extra"]:
+            by.setdefault(e["channel"], []).append(e["evsi"])
+            tally.check("value: 0 <= EVSI <= EVPI", -tol <= e["evsi"] <= v["evpi"] + tol,
+                        f"prop{k}: {e}")
+        for ch, vals in by.items():
+            tally.check("value: EVSI never falls with more repeats",
+                        all(b >= a - tol for a, b in zip(vals, vals[1:])), f"prop{k} {ch}: {vals}")
+        for n in v["case_next"]:
+            tally.check("value: 0 <= case value <= case EVPI",
+                        -tol <= n["value"] <= out["case"]["evpi"] + tol, f"prop{k}: {n}")
+
+
+def check_count_rates(folder, tally):
+    # Two numeric states with poisson counts (means 3 and 7 in a window of 1): the rule's
+    # grid is the whole numbers, so P(a | s) is a sum of pmf values (scipy.stats.poisson).
+    text = ("[problem]\ntitle = counts\n[states]\nvalues = 3, 7\n[prior]\nweights = 0.6, 0.4\n"
+            "[evidence.counter]\nnoise = poisson\n[actions]\nlabels = low, high\n"
+            "[loss]\nlow = 0, 4\nhigh = 1, 0\n"
+            "[sweep.prior]\nx = prior.weights[1]\nx_from = 0.3\nx_to = 0.8\nx_points = 6\n")
+    out = run(folder, "counts", text)
+    for pt in out["sweeps"][0]["points"]:
+        w = np.array([pt["x"], 0.4])
+        w /= w.sum()
+        ks = np.arange(0, 60)
+        like = np.array([stats.poisson.pmf(ks, 3), stats.poisson.pmf(ks, 7)])
+        loss = np.array([[0, 4], [1, 0]])
+        el = loss @ (w[:, None] * like)           # expected loss of each action per count
+        high = el[1] < el[0]
+        for s, name in enumerate(["3", "7"]):
+            want = float(like[s][high].sum())
+            tally.close("generic path rates: poisson counts (exact sums)",
+                        pt["rates"]["high"][name], want, COUNT_TOL, f"x={pt['x']} state {name}")
+
+
+def check_grid_rates(folder, tally):
+    # Grid states N(800, 120^2), gaussian clock sd 80, `long` pays above 800. The rule
+    # chooses long above its switch point x*, so P(long) = sum_s prior(s) Q((x* - s)/80)
+    # over the grid's states (as the JSON lists them), and close to the continuous
+    # predictive tail Q((x* - 800)/sqrt(120^2 + 80^2)).
+    text = ("[problem]\ntitle = bands\n[states]\nfrom = 300\nto = 1300\npoints = 1001\n"
+            "[prior]\nfamily = normal\nmean = 800\nsd = 120\n"
+            "[evidence.clock]\nnoise = gaussian\nsd = 80\ngrid_points = 501\n"
+            "[actions]\nlabels = short, long\n[payoff]\ncuts = 800\nshort = 1, -1\nlong = -2, 1\n"
+            "[sweep.penalty]\nx = payoff.long[1]\nx_from = -5\nx_to = 0\nx_points = 6\n")
+    out = run(folder, "grid", text, threads=2)
+    # Sweep points run in parallel; every number must be the same on one thread as on two.
+    one = run(folder, "grid1", text, threads=1)
+    tally.check("sweeps: the same numbers on 1 thread as on several",
+                one["sweeps"] == out["sweeps"], "grid sweep differs between thread counts")
+    states = np.array(out["problem"]["states"]["grid"])
+    prior = np.array(out["problem"]["prior"])
+    sd = math.hypot(120, 80)
+    for pt in out["sweeps"][0]["points"]:
+        x = pt["switch_points"][0]["x"]
+        want = float(prior @ stats.norm.sf(x, states, 80))
+        tally.close("generic path rates: grid states (sum of normal tails)",
+                    pt["rates"]["long"], want, CDF_TOL, f"x={pt['x']}")
+        # The 1-ms grid moves the prior's variance by Sheppard's 1/12: far below 1e-5.
+        tally.close("generic path rates: grid states (continuous predictive tail)",
+                    pt["rates"]["long"], stats.norm.sf(x, 800, sd), 1e-5, f"x={pt['x']}")
+
+
+def main():
+    tally = Tally()
+    folder = tempfile.mkdtemp(prefix="lopside_studies_")
+    rng = np.random.default_rng(SEED)
+    try:
+        check_thresholds(folder, tally, rng)
+        check_macmillan_creelman(folder, tally)
+        check_designs(folder, tally, rng)
+        check_value_detection(folder, tally, rng)
+        check_value_normal(folder, tally)
+        check_value_properties(folder, tally, rng)
+        check_count_rates(folder, tally)
+        check_grid_rates(folder, tally)
+    except Exception:   # a crash is one more failure, reported with the rest
+        tally.check("reference script", False,
+                    traceback.format_exc().strip().replace("\n", "\n    "))
+    passed, failed = tally.report()
+    if failed:
+        print(f"problem files kept in {folder}")
+    else:
+        shutil.rmtree(folder, ignore_errors=True)
+    print(f"{passed} passed, {failed} failed")
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

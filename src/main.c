@@ -33,7 +33,9 @@ static const char usage_main[] =
     "\n"
     "Decision analysis for choices whose costs are lopsided: reads a problem file\n"
     "(states, prior, evidence, actions, loss or payoff) and reports the Bayes action,\n"
-    "its expected loss, the decision rule over every measurement and its risk.\n"
+    "its expected loss, the decision rule over every measurement and its risk, the\n"
+    "value of information, sweeps, designs and simulated sessions, as text, JSON, CSV\n"
+    "and an XLSX workbook.\n"
     "\n"
     "Commands:\n"
     "  run FILE     solve the problem in FILE and print the report\n"
@@ -46,15 +48,20 @@ static const char usage_main[] =
     "  -V, --version  print the version\n"
     "\n"
     "Exit status: 0 done, 2 bad usage or input (nothing written), 1 failure while\n"
-    "running or writing. Errors read `lopside: FILE:LINE: [section] key: message`.\n";
+    "running or writing, 130 a simulation stopped by Ctrl-C (nothing written).\n"
+    "Errors read `lopside: FILE:LINE: [section] key: message`.\n";
 
 static const char usage_run[] =
     "Usage: lopside run FILE [--json PATH] [--workbook PATH] [--csv DIR] [--quiet]\n"
     "\n"
     "Solves the problem in FILE: the case at hand (posterior given every `observed`\n"
-    "value, expected loss or payoff of each action, the Bayes action, the value of\n"
-    "perfect information) and the rule (the Bayes action for every possible\n"
-    "measurement, switch points, Bayes risk against deciding on the prior alone).\n"
+    "value, expected loss or payoff of each action or estimate, the Bayes action, the\n"
+    "value of perfect information) and the rule (the Bayes action for every possible\n"
+    "measurement, switch points, Bayes risk against deciding on the prior alone), then\n"
+    "whatever the file asks for: other rules compared ([rule.NAME]), the value of more\n"
+    "measurements ([value]), sweeps ([sweep.NAME]), designs that meet a goal\n"
+    "([design.NAME]) and simulated sessions ([simulate]). Long sweeps and simulations\n"
+    "show progress on stderr at a terminal; Ctrl-C stops a simulation, writing nothing.\n"
     "\n"
     "  --json PATH      write the results as JSON (overrides [output] json)\n"
     "  --workbook PATH  write an XLSX workbook (overrides [output] workbook): Summary,\n"
@@ -113,38 +120,11 @@ static void on_interrupt(int sig)
     stop_simulation = 1;
 }
 
-static double seconds_now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-/* Progress on stderr: only at a terminal, and only once the run has taken a second. */
-typedef struct {
-    bool tty, shown;
-    double start;
-    int last;
-} progress_line;
-
-static void show_progress(void *user, size_t done, size_t total)
-{
-    progress_line *pl = user;
-    int pct = (int)(100.0 * (double)done / (double)total);
-    if (!pl->tty || pct == pl->last || seconds_now() - pl->start < 1.0)
-        return;
-    fprintf(stderr,
-            "\r\033[Klopside: simulating sessions: %3d%% (Ctrl-C stops, writing nothing)",
-            pct);
-    fflush(stderr);
-    pl->shown = true;
-    pl->last = pct;
-}
-
 /* Returns EXIT_DONE after the [simulate] sessions, EXIT_INTERRUPTED when Ctrl-C stopped
  * them (nothing may be written then), or -1 with err set. The SIGINT handler
  * is installed only around the simulation; a second Ctrl-C ends the program at once. */
-static int simulate(const lop_problem *p, lop_results *results, lop_error *err)
+static int simulate(const lop_problem *p, lop_results *results, const lop_progress *progress,
+                    lop_error *err)
 {
     struct sigaction action, previous;
     memset(&action, 0, sizeof action);
@@ -153,13 +133,11 @@ static int simulate(const lop_problem *p, lop_results *results, lop_error *err)
     sigemptyset(&action.sa_mask);
     stop_simulation = 0;
     bool handled = sigaction(SIGINT, &action, &previous) == 0;
-    progress_line pl = {isatty(STDERR_FILENO) == 1, false, seconds_now(), -1};
-    lop_simulate_control ctl = {&stop_simulation, show_progress, &pl};
+    lop_simulate_control ctl = {&stop_simulation, progress};
     lop_status st = lop_simulate_run(p, results, &ctl, err);
     if (handled)
         sigaction(SIGINT, &previous, NULL);
-    if (pl.shown)
-        fputs("\r\033[K", stderr);
+    lop_progress_step(progress, "", 1, 1); /* clears a progress line left by a stop */
     if (st != LOP_OK)
         return -1;
     if (results->simulation.interrupted || stop_simulation) {
@@ -189,7 +167,7 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     if (!results)
         goto fail;
     if (p->simulate.present) {
-        int sim = simulate(p, results, &err);
+        int sim = simulate(p, results, &progress, &err);
         if (sim == EXIT_INTERRUPTED) {
             status = sim;
             goto done;

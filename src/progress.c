@@ -6,7 +6,7 @@
 #include "lopside/progress.h"
 
 /* Work shorter than this shows no progress at all. */
-#define QUIET_SECONDS 0.5
+#define QUIET_SECONDS 1.0
 /* The line is redrawn at most this often. */
 #define REDRAW_SECONDS 0.1
 

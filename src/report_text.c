@@ -462,6 +462,60 @@ static void print_channel_detail(FILE *out, const lop_problem *p, const lop_chan
                 noise_names[c->noise], c->center[0], c->center[p->n_states - 1]);
 }
 
+static void print_score_table(FILE *out, const lop_problem *p)
+{
+    int aw = (int)widest(p->actions, p->n_actions, 6);
+    fprintf(out, "\n  %s (%s)\n  %-*s", lop_problem_orientation(p), score_unit(p), aw, "action");
+    for (size_t s = 0; s < p->n_states; s++)
+        fprintf(out, "  %12s", p->state_labels[s]);
+    fputc('\n', out);
+    for (size_t a = 0; a < p->n_actions; a++) {
+        fprintf(out, "  %-*s", aw, p->actions[a]);
+        for (size_t s = 0; s < p->n_states; s++)
+            fprintf(out, "  %12.6g", lop_problem_oriented(p, lop_problem_loss(p, a, s)));
+        fputc('\n', out);
+    }
+}
+
+/* What the file asks for beyond the case and the rule, one line each. */
+static void print_studies(FILE *out, const lop_problem *p)
+{
+    static const char *const goals[] = {"switch_point", "choice_rate", "risk", "action"};
+    if (p->n_rules || p->value.present || p->n_sweeps || p->n_designs || p->simulate.present)
+        fputc('\n', out);
+    for (size_t k = 0; k < p->n_rules; k++)
+        fprintf(out, "  rule %s: %s\n", p->rules[k].name, kind_names[p->rules[k].kind]);
+    if (p->value.present)
+        fprintf(out, "  value: %zu channel%s, up to %zu extra repeats at %g %s each\n",
+                p->value.n_channels, p->value.n_channels == 1 ? "" : "s", p->value.up_to,
+                p->value.cost, score_unit(p));
+    for (size_t k = 0; k < p->n_sweeps; k++) {
+        const lop_sweep_spec *w = &p->sweeps[k];
+        fprintf(out, "  sweep %s: %s from %g to %g (%zu points)", w->name, w->x, w->x_from,
+                w->x_to, w->x_points);
+        if (w->y)
+            fprintf(out, " by %s from %g to %g (%zu points)", w->y, w->y_from, w->y_to,
+                    w->y_points);
+        fputc('\n', out);
+    }
+    for (size_t k = 0; k < p->n_designs; k++) {
+        const lop_design_spec *d = &p->designs[k];
+        fprintf(out, "  design %s: %s in [%g, %g] so that %s%s%s", d->name, d->vary, d->from,
+                d->to, goals[d->goal],
+                d->goal == LOP_GOAL_CHOICE_RATE || d->goal == LOP_GOAL_ACTION ? " " : "",
+                d->goal == LOP_GOAL_CHOICE_RATE || d->goal == LOP_GOAL_ACTION
+                    ? p->actions[d->goal_action]
+                    : "");
+        if (d->goal == LOP_GOAL_ACTION)
+            fputc('\n', out);
+        else
+            fprintf(out, " = %g\n", d->equals);
+    }
+    if (p->simulate.present)
+        fprintf(out, "  simulate: %zu sessions of %zu trials, seed %lu\n", p->simulate.sessions,
+                p->simulate.trials, p->simulate.seed);
+}
+
 void lop_report_problem(FILE *out, const lop_problem *p)
 {
     print_summary_line(out, p);
@@ -479,22 +533,10 @@ void lop_report_problem(FILE *out, const lop_problem *p)
     }
     for (size_t i = 0; i < p->n_channels; i++)
         print_channel_detail(out, p, &p->channels[i], sw);
-    if (p->estimate) {
+    if (p->estimate)
         fprintf(out, "\n  estimates: %zu points from %.6g to %.6g\n", p->n_estimates,
                 p->estimates[0], p->estimates[p->n_estimates - 1]);
-        return;
-    }
-    if (p->states_kind == LOP_STATES_GRID)
-        return;
-    int aw = (int)widest(p->actions, p->n_actions, 6);
-    fprintf(out, "\n  %s (%s)\n  %-*s", lop_problem_orientation(p), score_unit(p), aw, "action");
-    for (size_t s = 0; s < p->n_states; s++)
-        fprintf(out, "  %12s", p->state_labels[s]);
-    fputc('\n', out);
-    for (size_t a = 0; a < p->n_actions; a++) {
-        fprintf(out, "  %-*s", aw, p->actions[a]);
-        for (size_t s = 0; s < p->n_states; s++)
-            fprintf(out, "  %12.6g", lop_problem_oriented(p, lop_problem_loss(p, a, s)));
-        fputc('\n', out);
-    }
+    else if (p->states_kind != LOP_STATES_GRID)
+        print_score_table(out, p);
+    print_studies(out, p);
 }

@@ -201,8 +201,10 @@ static void run_blocks(sim_job *job)
             size_t done;
 #pragma omp atomic capture
             done = ++job->done;
-            if (omp_get_thread_num() == 0 && job->ctl && job->ctl->progress)
-                job->ctl->progress(job->ctl->user, done, job->n_blocks);
+            if (omp_get_thread_num() == 0 && job->ctl)
+                lop_progress_step(job->ctl->progress,
+                                  "simulating sessions (Ctrl-C stops, writing nothing)", done,
+                                  job->n_blocks);
         }
         if (t) {
             /* Counts add up the same in any order. */

@@ -23,7 +23,7 @@ typedef struct {
 } lop_progress_line;
 
 /* Returns a progress that redraws one line on stderr (keeping its state in line) when
- * stderr is a terminal and the work has run for more than half a second, and one that
+ * stderr is a terminal and the work has run for more than a second, and one that
  * does nothing otherwise. */
 lop_progress lop_progress_stderr(lop_progress_line *line);
 

@@ -10,6 +10,7 @@
 
 #include "lopside/error.h"
 #include "lopside/problem.h"
+#include "lopside/progress.h"
 #include "lopside/results.h"
 
 /* Sessions are simulated in blocks of about this many trials, each block with its own
@@ -20,9 +21,8 @@
 typedef struct {
     volatile sig_atomic_t *stop;  /* non-zero: stop soon; the results are then marked
                                      interrupted and must not be reported */
-    void (*progress)(void *user, size_t done, size_t total); /* blocks done of total; called
-                                     by one thread between blocks */
-    void *user;
+    const lop_progress *progress; /* blocks done of total, reported by one thread between
+                                     blocks */
 } lop_simulate_control;
 
 /* Returns LOP_OK after filling r->simulation for p->simulate (nothing when absent); r

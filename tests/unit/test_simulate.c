@@ -223,7 +223,7 @@ static lop_results *simulate(const lop_problem *p, volatile sig_atomic_t *stop)
 {
     lop_results *r = test_solve(p);
     lop_error err = {0};
-    lop_simulate_control ctl = {stop, NULL, NULL};
+    lop_simulate_control ctl = {stop, NULL};
     ck_assert_int_eq(lop_simulate_run(p, r, &ctl, &err), LOP_OK);
     return r;
 }

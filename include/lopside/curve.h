@@ -97,6 +97,10 @@ lop_curve_fft *lop_curve_fft_new(const double *loss, size_t n_states, size_t n_e
 /* Frees f; NULL is a no-op. */
 void lop_curve_fft_free(lop_curve_fft *f);
 
+/* Returns the transform length used for `need` samples: the least n >= need (and >= 2)
+ * whose prime factors are 2, 3 and 5, the sizes GSL's mixed-radix real FFT does fastest. */
+size_t lop_curve_fft_size(size_t need);
+
 /* Writes el[j] = sum_i p[i]·loss[j - i + n_states - 1] for every estimate j (el has
  * n_estimates entries), by zero-padded real FFTs. */
 void lop_curve_fft_expected(lop_curve_fft *f, const double *p, double *el);

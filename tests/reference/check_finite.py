@@ -41,19 +41,16 @@ Problem files of a failing run are kept and their folder is printed.
 """
 
 import itertools
-import json
 import math
-import os
-import shutil
-import subprocess
 import sys
-import tempfile
 import traceback
 
 import numpy as np
 from scipy import integrate, optimize, special, stats
 
-LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
+sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
+import refkit  # noqa: E402  (the shared harness, beside this file)
+from refkit import rel_dev  # noqa: E402
 SEED = 20240611
 N_RANDOM = 42
 
@@ -110,51 +107,6 @@ OUTCOME_NAMES = ["clear", "faint", "flagged"]
 
 
 # ---------------------------------------------------------------------------------------
-# Results
-class Tally:
-    """Counts problem x check results per group and prints one line per group."""
-
-    def __init__(self):
-        self.groups = {}      # name -> {"n": tests, "failures": [details], "worst": dev}
-        self.order = []
-
-    def record(self, group, ok, detail="", dev=0.0):
-        """One problem x check: whether it passed, the numbers if not, its deviation."""
-        g = self.groups.get(group)
-        if g is None:
-            g = self.groups[group] = {"n": 0, "failures": [], "worst": 0.0}
-            self.order.append(group)
-        g["n"] += 1
-        g["worst"] = max(g["worst"], dev) if not math.isnan(dev) else math.inf
-        if not ok:
-            g["failures"].append(detail)
-
-    def check(self, group, dev, tol, detail):
-        """Passes when the deviation is within tol (a NaN deviation fails)."""
-        self.record(group, dev <= tol, detail, dev)
-
-    def report(self):
-        passed = failed = 0
-        for name in self.order:
-            g = self.groups[name]
-            nf = len(g["failures"])
-            passed += g["n"] - nf
-            failed += nf
-            if nf == 0:
-                print(f"ok {name}: {g['n']} tests, worst deviation {g['worst']:.3g}")
-            else:
-                print(f"FAIL {name}: {nf} of {g['n']} failed, worst deviation {g['worst']:.3g}")
-                for d in g["failures"]:
-                    print(f"    {d}")
-        return passed, failed
-
-
-def rel_dev(got, want, scale):
-    """Deviation relative to max(|want|, scale); scale covers numbers near zero."""
-    return abs(got - want) / max(abs(want), scale, 1e-300)
-
-
-# ---------------------------------------------------------------------------------------
 # Problems and their files
 class Problem:
     """A finite problem in loss orientation; `payoff` files hold minus the loss."""
@@ -206,7 +158,7 @@ class Problem:
                 lines.append(f"given.{s} = " + ", ".join(num(v) for v in row))
             lines.append(f"repeats = {t['repeats']}")
             if t["observed"] is not None:
-                lines += list_lines("observed", t["observed"])
+                lines += refkit.continued("observed", t["observed"])
             lines.append("")
         if self.gauss:
             g = self.gauss
@@ -216,7 +168,7 @@ class Problem:
                       "sd = " + ", ".join(num(v) for v in sd),
                       f"repeats = {g['repeats']}"]
             if g["observed"] is not None:
-                lines += list_lines("observed", [num(v) for v in g["observed"]])
+                lines += refkit.continued("observed", [num(v) for v in g["observed"]])
             lines.append("")
         lines += ["[actions]", "labels = " + ", ".join(self.actions), ""]
         lines.append("[payoff]" if self.payoff else "[loss]")
@@ -226,39 +178,15 @@ class Problem:
         return "\n".join(lines) + "\n"
 
 
-def list_lines(key, items, width=150):
-    """`key = a, b, ...` continued on indented lines to stay under lopside's line limit."""
-    out, line = [], f"{key} ="
-    for i, item in enumerate(items):
-        piece = f" {item}" + ("," if i + 1 < len(items) else "")
-        if len(line) + len(piece) > width:
-            out.append(line)
-            line = "   "
-        line += piece
-    out.append(line)
-    return out
-
-
 def run_lopside(problem, folder, tally, tag):
-    """Writes the problem file and runs lopside; returns its JSON, or None after recording
-    the failed run."""
-    out, err = run_lopside_raw(problem, folder)
+    """Writes the problem file and runs lopside; returns its JSON, or None. Every run is
+    one check of the group "lopside runs"."""
+    try:
+        out, err = refkit.run_lopside(folder, problem.name, problem.ini(), timeout=120), ""
+    except refkit.LopsideError as e:
+        out, err = None, e.reason
     tally.record("lopside runs", out is not None, f"{tag}: {err}")
     return out
-
-
-def run_lopside_raw(problem, folder):
-    """Writes the problem file, runs lopside, returns (json or None, error text)."""
-    path = os.path.join(folder, problem.name + ".ini")
-    out = os.path.join(folder, problem.name + ".json")
-    with open(path, "w") as f:
-        f.write(problem.ini())
-    proc = subprocess.run([LOPSIDE, "run", path, "--json", out, "--quiet"],
-                          capture_output=True, text=True, timeout=120)
-    if proc.returncode != 0:
-        return None, f"lopside exited {proc.returncode}: {proc.stderr.strip()}"
-    with open(out) as f:
-        return json.load(f), ""
 
 
 # ---------------------------------------------------------------------------------------
@@ -655,8 +583,7 @@ def check_problem(p, folder, tally, tag):
         check_case(p, out, tally, tag)
         check_rule(p, out, tally, tag)
     except Exception:
-        tally.record("checks ran to the end", False,
-                     f"{tag}: " + traceback.format_exc().strip().replace("\n", "\n    "))
+        tally.record("checks ran to the end", False, f"{tag}: " + traceback.format_exc().strip())
 
 
 def check_random(folder, tally):
@@ -798,25 +725,8 @@ def check_many_repeats(folder, tally):
 
 
 def main():
-    tally = Tally()
-    folder = tempfile.mkdtemp(prefix="lopside_ref_")
-    try:
-        check_random(folder, tally)
-        check_tie(folder, tally)
-        check_zero_entry(folder, tally)
-        check_detection(folder, tally)
-        check_screening(folder, tally)
-        check_many_repeats(folder, tally)
-    except Exception:   # a crash is one more failure, reported with the rest
-        tally.record("reference script", False,
-                     traceback.format_exc().strip().replace("\n", "\n    "))
-    passed, failed = tally.report()
-    if failed:
-        print(f"problem files kept in {folder}")
-    else:
-        shutil.rmtree(folder, ignore_errors=True)
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
+    return refkit.main("lopside_ref_", [check_random, check_tie, check_zero_entry,
+                                        check_detection, check_screening, check_many_repeats])
 
 
 if __name__ == "__main__":

@@ -42,20 +42,14 @@ Prints one line per check group and ends with `N passed, M failed`; exits 1 on f
 The problem files of a failing run are kept and their folder is printed.
 """
 
-import json
 import math
-import os
-import shutil
-import subprocess
 import sys
-import tempfile
-import traceback
 
 import numpy as np
 from scipy import integrate, optimize, special, stats
 
-LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
-VERBOSE = os.environ.get("VERBOSE") == "1"  # print every comparison with its tolerance
+sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
+import refkit  # noqa: E402  (the shared harness; VERBOSE=1 prints every comparison)
 
 # Sums of a few thousand double terms, and GSL against scipy for the same special
 # function, agree to ~1e-13 of the result; 1e-9 relative is the "exact up to rounding"
@@ -70,53 +64,6 @@ COVERAGE_GAP = 1e-6
 PRIOR_ATOL = 1e-12
 # format.md: prior mass outside the grid above 0.1% is reported as a warning.
 OUTSIDE_WARN = 1e-3
-
-
-# ---------------------------------------------------------------------------------------
-# Results
-class Tally:
-    """Counts checks per group and prints one line per group."""
-
-    def __init__(self):
-        self.groups = {}
-        self.order = []
-
-    def record(self, group, ok, detail=""):
-        g = self.groups.get(group)
-        if g is None:
-            g = self.groups[group] = {"n": 0, "failures": []}
-            self.order.append(group)
-        g["n"] += 1
-        if not ok:
-            g["failures"].append(detail)
-        return ok
-
-    def close(self, group, what, got, want, tol):
-        """Passes when |got - want| <= tol (NaN or a missing number fails)."""
-        try:
-            dev = abs(float(got) - float(want))
-        except (TypeError, ValueError):
-            return self.record(group, False, f"{what}: got {got!r}, expected {want!r}")
-        ok = dev <= tol
-        if VERBOSE:
-            print(f"  {group[:2]} {what}: dev {dev:.3g} tol {tol:.3g} ratio {dev / tol if tol else math.inf:.3g}")
-        return self.record(group, ok, f"{what}: got {float(got)!r}, expected {float(want)!r}, "
-                                      f"off by {dev:.3g}, tolerance {tol:.3g}")
-
-    def report(self):
-        passed = failed = 0
-        for name in self.order:
-            g = self.groups[name]
-            nf = len(g["failures"])
-            passed += g["n"] - nf
-            failed += nf
-            if nf == 0:
-                print(f"ok {name}: {g['n']} checks")
-            else:
-                print(f"FAIL {name}: {nf} of {g['n']} failed")
-                for d in g["failures"]:
-                    print(f"    {d}")
-        return passed, failed
 
 
 # ---------------------------------------------------------------------------------------
@@ -139,22 +86,9 @@ def ini_text(sections):
     for name, entries in sections:
         lines.append(f"[{name}]")
         for key, value in entries:
-            lines += wrapped(key, value_text(value))
+            lines += refkit.continued(key, value_text(value).split(", "))
         lines.append("")
     return "\n".join(lines)
-
-
-def wrapped(key, text, width=150):
-    out, line = [], f"{key} ="
-    items = text.split(", ")
-    for i, item in enumerate(items):
-        piece = f" {item}" + ("," if i + 1 < len(items) else "")
-        if len(line) + len(piece) > width:
-            out.append(line)
-            line = "   "
-        line += piece
-    out.append(line)
-    return out
 
 
 class Runner:
@@ -164,22 +98,11 @@ class Runner:
 
     def run(self, name, sections, group):
         """Writes NAME.ini, runs lopside, returns its JSON (None after a recorded failure)."""
-        path = os.path.join(self.folder, name + ".ini")
-        out = os.path.join(self.folder, name + ".json")
-        with open(path, "w") as f:
-            f.write(ini_text(sections))
         try:
-            proc = subprocess.run([LOPSIDE, "run", path, "--json", out, "--quiet"],
-                                  capture_output=True, text=True, timeout=120)
-        except (OSError, subprocess.SubprocessError) as e:
-            self.tally.record(group, False, f"{name}: cannot run {LOPSIDE}: {e}")
+            return refkit.run_lopside(self.folder, name, ini_text(sections), timeout=120)
+        except refkit.LopsideError as e:
+            self.tally.record(group, False, str(e))
             return None
-        if proc.returncode != 0:
-            self.tally.record(group, False, f"{name}: lopside exited {proc.returncode}: "
-                                            f"{proc.stderr.strip()}")
-            return None
-        with open(out) as f:
-            return json.load(f)
 
 
 # ---------------------------------------------------------------------------------------
@@ -1364,28 +1287,10 @@ def check_responses(runner, tally):
 
 
 def main():
-    if not os.access(LOPSIDE, os.X_OK):
-        print(f"FAIL setup: {LOPSIDE} is not an executable (set LOPSIDE)")
-        print("0 passed, 1 failed")
-        return 1
-    tally = Tally()
-    folder = tempfile.mkdtemp(prefix="lopside_grid_")
-    runner = Runner(folder, tally)
     checks = [check_normal, check_conjugate_counts, check_linlin, check_linex, check_two_cues,
               check_tolerance, check_other_curves, check_prior_families, check_choices,
               check_rules, check_responses]
-    for check in checks:
-        try:
-            check(runner, tally)
-        except Exception:
-            tally.record(f"python error in {check.__name__}", False, traceback.format_exc())
-    passed, failed = tally.report()
-    if failed:
-        print(f"problem files kept in {folder}")
-    else:
-        shutil.rmtree(folder, ignore_errors=True)
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
+    return refkit.main("lopside_grid_", checks, context=Runner)
 
 
 if __name__ == "__main__":

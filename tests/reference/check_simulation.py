@@ -37,24 +37,23 @@ Run from the repository root: LOPSIDE=build/lopside /usr/bin/python3 tests/refer
 Prints one line per check group and ends with `N passed, M failed`; exits 1 on any failure.
 """
 
-import json
 import math
 import os
 import pty
 import re
 import select
-import shutil
 import signal
 import subprocess
 import sys
-import tempfile
 import time
-import traceback
 
 import numpy as np
 from scipy import optimize, stats
 
-LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
+sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
+import refkit  # noqa: E402  (the shared harness, beside this file)
+from refkit import LOPSIDE  # noqa: E402
+
 EXAMPLES = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "examples")
 
 # The binomial checks: a 99.9% interval per count (see the docstring).
@@ -68,54 +67,11 @@ COVERAGE_SEEDS = 20
 COVERAGE_MIN = 15
 
 
-class Tally:
-    """Counts checks per group and prints one line per group."""
-
-    def __init__(self):
-        self.groups = {}
-        self.order = []
-
-    def record(self, group, ok, detail=""):
-        g = self.groups.get(group)
-        if g is None:
-            g = self.groups[group] = {"n": 0, "failures": []}
-            self.order.append(group)
-        g["n"] += 1
-        if not ok:
-            g["failures"].append(detail)
-
-    def report(self):
-        passed = failed = 0
-        for name in self.order:
-            g = self.groups[name]
-            nf = len(g["failures"])
-            passed += g["n"] - nf
-            failed += nf
-            if nf == 0:
-                print(f"ok {name}: {g['n']} checks")
-            else:
-                print(f"FAIL {name}: {nf} of {g['n']} failed")
-                for d in g["failures"]:
-                    print(f"    {d}")
-        return passed, failed
-
-
-def run(folder, name, text, env=None, expect_ok=True):
-    """Writes NAME.ini, runs lopside on it and returns the JSON (None on failure)."""
-    ini = os.path.join(folder, name + ".ini")
-    out = os.path.join(folder, name + ".json")
-    with open(ini, "w", encoding="utf-8") as f:
-        f.write(text)
-    full_env = dict(os.environ, LC_ALL="C")
-    full_env.update(env or {})
-    proc = subprocess.run([LOPSIDE, "run", ini, "--json", out, "--quiet"], env=full_env,
-                          capture_output=True, text=True, timeout=600)
-    if proc.returncode != 0:
-        if expect_ok:
-            raise RuntimeError(f"{name}: lopside exited {proc.returncode}: {proc.stderr.strip()}")
-        return None
-    with open(out, encoding="utf-8") as f:
-        return json.load(f)
+def run(folder, name, text, env=None):
+    """Writes NAME.ini, runs lopside on it in the C locale and returns the JSON (raises
+    refkit.LopsideError on failure)."""
+    return refkit.run_lopside(folder, name, text, env=dict({"LC_ALL": "C"}, **(env or {})),
+                              timeout=600)
 
 
 def sim_rule(result, name):
@@ -643,25 +599,10 @@ def check_interrupt(folder, tally):
 
 
 def main():
-    tally = Tally()
-    folder = tempfile.mkdtemp(prefix="lopside-sim-")
-    ok = True
-    for check in (check_detection, check_table, check_table_and_gaussian, check_counts_noise,
-                  check_lognormal, check_direct, check_grid_states, check_totals, check_examples,
-                  check_estimate_rules,
-                  check_threads, check_interrupt):
-        try:
-            check(folder, tally)
-        except Exception:
-            ok = False
-            tally.record(f"{check.__name__} ran", False, traceback.format_exc())
-    passed, failed = tally.report()
-    if failed == 0 and ok:
-        shutil.rmtree(folder, ignore_errors=True)
-    else:
-        print(f"problem files kept in {folder}")
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
+    return refkit.main("lopside-sim-", [
+        check_detection, check_table, check_table_and_gaussian, check_counts_noise,
+        check_lognormal, check_direct, check_grid_states, check_totals, check_examples,
+        check_estimate_rules, check_threads, check_interrupt])
 
 
 if __name__ == "__main__":

@@ -32,19 +32,16 @@ Run from the repository root:
 Prints one line per check group and ends with `N passed, M failed`; exits 1 on any failure.
 """
 
-import json
+import functools
 import math
-import os
-import shutil
-import subprocess
 import sys
-import tempfile
-import traceback
 
 import numpy as np
 from scipy import optimize, stats
 
-LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
+sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
+import refkit  # noqa: E402  (the shared harness, beside this file)
+
 SEED = 20240612
 
 # Tolerances, each with its reason.
@@ -68,50 +65,11 @@ GRID_VALUE_TOL = 2e-4
 COUNT_TOL = 2e-6
 
 
-class Tally:
-    """Counts checks per group and prints one line per group."""
-
-    def __init__(self):
-        self.groups, self.order = {}, []
-
-    def check(self, group, ok, detail=""):
-        g = self.groups.get(group)
-        if g is None:
-            g = self.groups[group] = {"n": 0, "failures": []}
-            self.order.append(group)
-        g["n"] += 1
-        if not ok:
-            g["failures"].append(detail)
-
-    def close(self, group, got, want, tol, detail=""):
-        ok = isinstance(got, (int, float)) and abs(got - want) <= tol * max(1.0, abs(want))
-        self.check(group, ok, f"{detail}: lopside {got!r}, reference {want!r} (tol {tol})")
-
-    def report(self):
-        passed = failed = 0
-        for name in self.order:
-            g = self.groups[name]
-            nf = len(g["failures"])
-            print(f"{'FAIL' if nf else 'ok'} {name}: {g['n'] - nf} of {g['n']}")
-            for f in g["failures"][:5]:
-                print(f"    {f}")
-            passed += g["n"] - nf
-            failed += nf
-        return passed, failed
-
-
 def run(folder, name, text, threads=None):
-    path = os.path.join(folder, name + ".ini")
-    with open(path, "w", encoding="utf-8") as f:
-        f.write(text)
-    out = os.path.join(folder, name + ".json")
-    env = dict(os.environ, OMP_NUM_THREADS=str(threads)) if threads else None
-    proc = subprocess.run([LOPSIDE, "run", path, "--json", out, "--quiet"],
-                          capture_output=True, text=True, check=False, env=env)
-    if proc.returncode != 0:
-        raise RuntimeError(f"{name}: exit {proc.returncode}: {proc.stderr.strip()}")
-    with open(out, encoding="utf-8") as f:
-        return json.load(f)
+    """Runs lopside on TEXT (with OMP_NUM_THREADS = threads if given) and returns the JSON;
+    raises refkit.LopsideError on failure."""
+    env = {"OMP_NUM_THREADS": str(threads)} if threads else None
+    return refkit.run_lopside(folder, name, text, env=env)
 
 
 def detection_text(ps, mu, sd, repeats, payoff, extra):
@@ -159,31 +117,31 @@ def check_thresholds(folder, tally, rng):
             f"[sweep.roc]\nx = rule.threshold\nx_from = {lo!r}\nx_to = {hi!r}\nx_points = 11\n"))
         sw = out["sweeps"][0]
         d = mu / sdn
-        tally.close("threshold sweeps: d'", sw["d_prime"], d, CDF_TOL, f"roc{k}")
+        tally.close_rel("threshold sweeps: d'", sw["d_prime"], d, CDF_TOL, f"roc{k}")
         for pt in sw["points"]:
             t = pt["x"]
             F, H = stats.norm.sf(t, 0, sdn), stats.norm.sf(t, mu, sdn)
-            tally.close("threshold sweeps: ROC (hit, false alarm)", pt["hit_rate"], H, CDF_TOL,
-                        f"roc{k} t={t}")
-            tally.close("threshold sweeps: ROC (hit, false alarm)", pt["false_alarm_rate"], F,
-                        CDF_TOL, f"roc{k} t={t}")
-            tally.close("threshold sweeps: rates per action and state",
-                        pt["rates"]["say_no"]["signal"], 1 - H, CDF_TOL, f"roc{k} t={t}")
-            tally.close("threshold sweeps: expected payoff", pt["expected_payoff"],
-                        threshold_payoff(ps, mu, sdn, payoff, t), CDF_TOL, f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: ROC (hit, false alarm)", pt["hit_rate"], H, CDF_TOL,
+                            f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: ROC (hit, false alarm)", pt["false_alarm_rate"], F,
+                            CDF_TOL, f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: rates per action and state",
+                            pt["rates"]["say_no"]["signal"], 1 - H, CDF_TOL, f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: expected payoff", pt["expected_payoff"],
+                            threshold_payoff(ps, mu, sdn, payoff, t), CDF_TOL, f"roc{k} t={t}")
             zH, zF = stats.norm.ppf(H), stats.norm.ppf(F)
-            tally.close("threshold sweeps: c = -(z(H) + z(F))/2", pt["c"], -(zH + zF) / 2, Z_TOL,
-                        f"roc{k} t={t}")
-            tally.close("threshold sweeps: beta = phi(z(H))/phi(z(F))", pt["beta"],
-                        stats.norm.pdf(zH) / stats.norm.pdf(zF), Z_TOL, f"roc{k} t={t}")
-            tally.close("threshold sweeps: d' = z(H) - z(F)", zH - zF, sw["d_prime"], Z_TOL,
-                        f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: c = -(z(H) + z(F))/2", pt["c"], -(zH + zF) / 2,
+                            Z_TOL, f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: beta = phi(z(H))/phi(z(F))", pt["beta"],
+                            stats.norm.pdf(zH) / stats.norm.pdf(zF), Z_TOL, f"roc{k} t={t}")
+            tally.close_rel("threshold sweeps: d' = z(H) - z(F)", zH - zF, sw["d_prime"], Z_TOL,
+                            f"roc{k} t={t}")
         x = criterion(ps, mu, sdn, payoff)
-        tally.close("threshold sweeps: Bayes threshold (Green & Swets)", sw["bayes_threshold"], x,
-                    ROOT_TOL, f"roc{k}")
+        tally.close_rel("threshold sweeps: Bayes threshold (Green & Swets)",
+                        sw["bayes_threshold"], x, ROOT_TOL, f"roc{k}")
         best = threshold_payoff(ps, mu, sdn, payoff, x)
-        tally.close("threshold sweeps: Bayes threshold's payoff",
-                    sw["bayes_threshold_expected_payoff"], best, CDF_TOL, f"roc{k}")
+        tally.close_rel("threshold sweeps: Bayes threshold's payoff",
+                        sw["bayes_threshold_expected_payoff"], best, CDF_TOL, f"roc{k}")
         for r in sw["flatness"]["ranges"]:
             level = best - r["within"] * abs(best)
             for end in ("from", "to"):
@@ -192,12 +150,12 @@ def check_thresholds(folder, tally, rng):
                     # limit there is always taking one action.
                     limit = (1 - ps) * payoff[0] - ps * payoff[1] if end == "to" else \
                         -(1 - ps) * payoff[2] + ps * payoff[3]
-                    tally.check("threshold sweeps: flatness ranges", limit >= level - 1e-12,
-                                f"roc{k} {end} endless but the limit {limit} < {level}")
+                    tally.record("threshold sweeps: flatness ranges", limit >= level - 1e-12,
+                                 f"roc{k} {end} endless but the limit {limit} < {level}")
                     continue
-                tally.close("threshold sweeps: flatness ranges",
-                            threshold_payoff(ps, mu, sdn, payoff, r[end]), level, ROOT_TOL,
-                            f"roc{k} within {r['within']} {end}")
+                tally.close_rel("threshold sweeps: flatness ranges",
+                                threshold_payoff(ps, mu, sdn, payoff, r[end]), level, ROOT_TOL,
+                                f"roc{k} within {r['within']} {end}")
 
 
 def check_macmillan_creelman(folder, tally):
@@ -211,14 +169,14 @@ def check_macmillan_creelman(folder, tally):
         f"[sweep.roc]\nx = rule.threshold\nx_from = {float(t)!r}\nx_to = 3\nx_points = 2\n"))
     sw = out["sweeps"][0]
     pt = sw["points"][0]
-    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["hit_rate"], 0.84, 1e-12, "H")
-    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["false_alarm_rate"], 0.16, 1e-12,
-                "F")
-    tally.check("Macmillan & Creelman: d' about 1.99", round(sw["d_prime"], 2) == 1.99,
-                f"d' = {sw['d_prime']}")
+    tally.close_rel("Macmillan & Creelman: H = 0.84, F = 0.16", pt["hit_rate"], 0.84, 1e-12, "H")
+    tally.close_rel("Macmillan & Creelman: H = 0.84, F = 0.16", pt["false_alarm_rate"], 0.16, 1e-12,
+                    "F")
+    tally.record("Macmillan & Creelman: d' about 1.99", round(sw["d_prime"], 2) == 1.99,
+                 f"d' = {sw['d_prime']}")
     # Unbiased there: c = 0, beta = 1.
-    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["c"], 0.0, 1e-9, "c")
-    tally.close("Macmillan & Creelman: H = 0.84, F = 0.16", pt["beta"], 1.0, 1e-9, "beta")
+    tally.close_rel("Macmillan & Creelman: H = 0.84, F = 0.16", pt["c"], 0.0, 1e-9, "c")
+    tally.close_rel("Macmillan & Creelman: H = 0.84, F = 0.16", pt["beta"], 1.0, 1e-9, "beta")
 
 
 def check_designs(folder, tally, rng):
@@ -244,17 +202,18 @@ def check_designs(folder, tally, rng):
         beta = math.exp((x / sdn - d / 2) * d)
         want = beta * (ps / (1 - ps)) * (vh + cm) - vc
         got = out["designs"][0]
-        tally.check("designs: switch point reached", got["reached"] is True, f"design{k}")
-        tally.close("designs: switch point (Green & Swets for C_fa)", -got["value"], want,
-                    ROOT_TOL, f"design{k}")
+        tally.record("designs: switch point reached", got["reached"] is True, f"design{k}")
+        tally.close_rel("designs: switch point (Green & Swets for C_fa)", -got["value"], want,
+                        ROOT_TOL, f"design{k}")
 
         def yes_rate(c):
             xc = criterion(ps, mu, sdn, (vc, cm, c, vh))
             return (1 - ps) * stats.norm.sf(xc, 0, sdn) + ps * stats.norm.sf(xc, mu, sdn) - rate
         want = optimize.brentq(yes_rate, 0.2, 30, xtol=1e-14, rtol=1e-14)
         got = out["designs"][1]
-        tally.check("designs: choice rate reached", got["reached"] is True, f"design{k}")
-        tally.close("designs: choice rate (brentq)", -got["value"], want, ROOT_TOL, f"design{k}")
+        tally.record("designs: choice rate reached", got["reached"] is True, f"design{k}")
+        tally.close_rel("designs: choice rate (brentq)", -got["value"], want, ROOT_TOL,
+                        f"design{k}")
 
 
 def gs_payoff(ps, d, payoff):
@@ -274,18 +233,19 @@ def check_value_detection(folder, tally, rng):
         given = gs_payoff(ps, d1 * math.sqrt(repeats), payoff)
         vc, cm, cf, vh = payoff
         perfect = (1 - ps) * vc + ps * vh
-        tally.close("value: EVPI of detection", v["evpi"], perfect - given, VALUE_TOL, f"value{k}")
+        tally.close_rel("value: EVPI of detection", v["evpi"], perfect - given, VALUE_TOL,
+                        f"value{k}")
         best = None
         for e in v["extra"]:
             more = gs_payoff(ps, d1 * math.sqrt(repeats + e["n"]), payoff)
-            tally.close("value: EVSI of detection (Green & Swets with d' sqrt(k))", e["evsi"],
-                        more - given, VALUE_TOL, f"value{k} n={e['n']}")
-            tally.close("value: net = EVSI - n cost", e["net"], e["evsi"] - e["n"] * cost, 1e-12,
-                        f"value{k} n={e['n']}")
+            tally.close_rel("value: EVSI of detection (Green & Swets with d' sqrt(k))", e["evsi"],
+                            more - given, VALUE_TOL, f"value{k} n={e['n']}")
+            tally.close_rel("value: net = EVSI - n cost", e["net"], e["evsi"] - e["n"] * cost,
+                            1e-12, f"value{k} n={e['n']}")
             if e["net"] > 0 and (best is None or e["net"] > best[1]):
                 best = (e["n"], e["net"])
-        tally.check("value: best purchase", (v["best"] is None) == (best is None) and
-                    (best is None or v["best"]["n"] == best[0]), f"value{k}: {v['best']} {best}")
+        tally.record("value: best purchase", (v["best"] is None) == (best is None) and
+                     (best is None or v["best"]["n"] == best[0]), f"value{k}: {v['best']} {best}")
 
 
 def check_value_normal(folder, tally):
@@ -302,19 +262,19 @@ def check_value_normal(folder, tally):
 
         def var(n):
             return 1 / (1 / tau ** 2 + n / sigma ** 2)
-        tally.close("value: EVPI, squared loss (posterior variance)", v["evpi"], var(1),
-                    GRID_VALUE_TOL, f"normal{k}")
+        tally.close_rel("value: EVPI, squared loss (posterior variance)", v["evpi"], var(1),
+                        GRID_VALUE_TOL, f"normal{k}")
         for e in v["extra"]:
-            tally.close("value: EVSI, normal prior and noise (Raiffa & Schlaifer)", e["evsi"],
-                        var(1) - var(1 + e["n"]), GRID_VALUE_TOL, f"normal{k} n={e['n']}")
+            tally.close_rel("value: EVSI, normal prior and noise (Raiffa & Schlaifer)", e["evsi"],
+                            var(1) - var(1 + e["n"]), GRID_VALUE_TOL, f"normal{k} n={e['n']}")
             # The textbook form tau^2 - (1/tau^2 + m/sigma^2)^-1 for m = 1 + n measurements
             # against none: the design's own evidence plus the n more.
-            tally.close("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (evidence + EVSI)",
-                        out["rule"]["value_of_evidence"] + e["evsi"], tau ** 2 - var(1 + e["n"]),
-                        GRID_VALUE_TOL, f"normal{k} m={1 + e['n']}")
+            tally.close_rel("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (evidence + EVSI)",
+                            out["rule"]["value_of_evidence"] + e["evsi"],
+                            tau ** 2 - var(1 + e["n"]), GRID_VALUE_TOL, f"normal{k} m={1 + e['n']}")
         # Nothing observed: one more measurement for the case is worth tau^2 - var(1).
-        tally.close("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (case, nothing observed)",
-                    v["case_next"][0]["value"], tau ** 2 - var(1), GRID_VALUE_TOL, f"normal{k}")
+        tally.close_rel("value: tau^2 - (1/tau^2 + m/sigma^2)^-1 (case, nothing observed)",
+                        v["case_next"][0]["value"], tau ** 2 - var(1), GRID_VALUE_TOL, f"normal{k}")
 
 
 def check_value_properties(folder, tally, rng):
@@ -340,18 +300,18 @@ def check_value_properties(folder, tally, rng):
         out = run(folder, f"prop{k}", "\n".join(lines) + "\n")
         v = out["value"]
         tol = 1e-11
-        tally.check("value: 0 <= EVPI", v["evpi"] >= -tol, f"prop{k}: {v['evpi']}")
+        tally.record("value: 0 <= EVPI", v["evpi"] >= -tol, f"prop{k}: {v['evpi']}")
         by = {}
         for e in v["extra"]:
             by.setdefault(e["channel"], []).append(e["evsi"])
-            tally.check("value: 0 <= EVSI <= EVPI", -tol <= e["evsi"] <= v["evpi"] + tol,
-                        f"prop{k}: {e}")
+            tally.record("value: 0 <= EVSI <= EVPI", -tol <= e["evsi"] <= v["evpi"] + tol,
+                         f"prop{k}: {e}")
         for ch, vals in by.items():
-            tally.check("value: EVSI never falls with more repeats",
-                        all(b >= a - tol for a, b in zip(vals, vals[1:])), f"prop{k} {ch}: {vals}")
+            tally.record("value: EVSI never falls with more repeats",
+                         all(b >= a - tol for a, b in zip(vals, vals[1:])), f"prop{k} {ch}: {vals}")
         for n in v["case_next"]:
-            tally.check("value: 0 <= case value <= case EVPI",
-                        -tol <= n["value"] <= out["case"]["evpi"] + tol, f"prop{k}: {n}")
+            tally.record("value: 0 <= case value <= case EVPI",
+                         -tol <= n["value"] <= out["case"]["evpi"] + tol, f"prop{k}: {n}")
 
 
 def check_count_rates(folder, tally):
@@ -372,8 +332,8 @@ def check_count_rates(folder, tally):
         high = el[1] < el[0]
         for s, name in enumerate(["3", "7"]):
             want = float(like[s][high].sum())
-            tally.close("generic path rates: poisson counts (exact sums)",
-                        pt["rates"]["high"][name], want, COUNT_TOL, f"x={pt['x']} state {name}")
+            tally.close_rel("generic path rates: poisson counts (exact sums)",
+                            pt["rates"]["high"][name], want, COUNT_TOL, f"x={pt['x']} state {name}")
 
 
 def check_grid_rates(folder, tally):
@@ -389,44 +349,29 @@ def check_grid_rates(folder, tally):
     out = run(folder, "grid", text, threads=2)
     # Sweep points run in parallel; every number must be the same on one thread as on two.
     one = run(folder, "grid1", text, threads=1)
-    tally.check("sweeps: the same numbers on 1 thread as on several",
-                one["sweeps"] == out["sweeps"], "grid sweep differs between thread counts")
+    tally.record("sweeps: the same numbers on 1 thread as on several",
+                 one["sweeps"] == out["sweeps"], "grid sweep differs between thread counts")
     states = np.array(out["problem"]["states"]["grid"])
     prior = np.array(out["problem"]["prior"])
     sd = math.hypot(120, 80)
     for pt in out["sweeps"][0]["points"]:
         x = pt["switch_points"][0]["x"]
         want = float(prior @ stats.norm.sf(x, states, 80))
-        tally.close("generic path rates: grid states (sum of normal tails)",
-                    pt["rates"]["long"], want, CDF_TOL, f"x={pt['x']}")
+        tally.close_rel("generic path rates: grid states (sum of normal tails)",
+                        pt["rates"]["long"], want, CDF_TOL, f"x={pt['x']}")
         # The 1-ms grid moves the prior's variance by Sheppard's 1/12: far below 1e-5.
-        tally.close("generic path rates: grid states (continuous predictive tail)",
-                    pt["rates"]["long"], stats.norm.sf(x, 800, sd), 1e-5, f"x={pt['x']}")
+        tally.close_rel("generic path rates: grid states (continuous predictive tail)",
+                        pt["rates"]["long"], stats.norm.sf(x, 800, sd), 1e-5, f"x={pt['x']}")
 
 
 def main():
-    tally = Tally()
-    folder = tempfile.mkdtemp(prefix="lopside_studies_")
-    rng = np.random.default_rng(SEED)
-    try:
-        check_thresholds(folder, tally, rng)
-        check_macmillan_creelman(folder, tally)
-        check_designs(folder, tally, rng)
-        check_value_detection(folder, tally, rng)
-        check_value_normal(folder, tally)
-        check_value_properties(folder, tally, rng)
-        check_count_rates(folder, tally)
-        check_grid_rates(folder, tally)
-    except Exception:   # a crash is one more failure, reported with the rest
-        tally.check("reference script", False,
-                    traceback.format_exc().strip().replace("\n", "\n    "))
-    passed, failed = tally.report()
-    if failed:
-        print(f"problem files kept in {folder}")
-    else:
-        shutil.rmtree(folder, ignore_errors=True)
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
+    rng = np.random.default_rng(SEED)   # one stream, drawn from in this order
+    checks = [functools.partial(check_thresholds, rng=rng), check_macmillan_creelman,
+              functools.partial(check_designs, rng=rng),
+              functools.partial(check_value_detection, rng=rng), check_value_normal,
+              functools.partial(check_value_properties, rng=rng), check_count_rates,
+              check_grid_rates]
+    return refkit.main("lopside_studies_", checks, tally=refkit.Tally(max_details=5))
 
 
 if __name__ == "__main__":

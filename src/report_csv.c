@@ -11,50 +11,41 @@
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <sys/stat.h>
 
 #include "lopside/outfile.h"
 #include "lopside/report.h"
+#include "report_csv_private.h"
 
-/* More than the tables written today, so that new tables only add a function. */
-#define CSV_FILES_MAX 40
+/* --- low-level output ------------------------------------------------------------- */
 
-typedef struct {
-    lop_outfile out;
-    char name[64];
-    char holds[320];
-    size_t rows;
-} csv_file;
-
-typedef struct {
-    const char *dir;
-    const lop_problem *p;
-    const lop_results *r;
-    const lop_provenance *prov;
-    csv_file files[CSV_FILES_MAX];
-    size_t n;
-    csv_file *cur;         /* the file being written, NULL when none */
-    int fields;            /* fields written on the current line */
-    lop_error *err;
-    lop_status status;     /* LOP_OK until the first failure */
-} csv_set;
-
-static const char *score_unit(const lop_problem *p)
+const char *csv_score_unit(const lop_problem *p)
 {
     return p->score_unit[0] ? p->score_unit : "units";
 }
 
-/* --- low-level output ------------------------------------------------------------- */
+bool csv_taken(const csv_set *set, const char *name)
+{
+    for (size_t i = 0; i < set->n; i++)
+        if (strcasecmp(set->files[i].name, name) == 0)
+            return true;
+    return false;
+}
 
-/* Starts file `name` (holding `holds`); returns false (after recording why) on failure. */
-static bool csv_begin(csv_set *set, const char *name, const char *holds)
+bool csv_begin(csv_set *set, const char *name, const char *holds)
 {
     if (set->status != LOP_OK)
         return false;
-    if (set->n == CSV_FILES_MAX) {
-        set->status = lop_error_run(set->err, "cannot write %s/%s: too many CSV tables",
-                                    set->dir, name);
-        return false;
+    if (set->n == set->cap) {
+        size_t cap = set->cap ? 2 * set->cap : 32;
+        csv_file *grown = realloc(set->files, cap * sizeof *grown);
+        if (!grown) {
+            set->status = lop_error_run(set->err, "out of memory");
+            return false;
+        }
+        set->files = grown;
+        set->cap = cap;
     }
     csv_file *f = &set->files[set->n];
     memset(f, 0, sizeof *f);
@@ -77,8 +68,7 @@ static bool csv_begin(csv_set *set, const char *name, const char *holds)
     return true;
 }
 
-/* Writes one field, quoted when it holds a comma, a quote, CR or LF (RFC 4180). */
-static void csv_str(csv_set *set, const char *s)
+void csv_str(csv_set *set, const char *s)
 {
     FILE *out = set->cur->out.file;
     if (set->fields++)
@@ -98,8 +88,7 @@ static void csv_str(csv_set *set, const char *s)
     fputc('"', out);
 }
 
-/* Writes a number at full precision: %.17g reads back to the same double. */
-static void csv_num(csv_set *set, double v)
+void csv_num(csv_set *set, double v)
 {
     char buf[40];
     if (isnan(v))
@@ -111,15 +100,22 @@ static void csv_num(csv_set *set, double v)
     csv_str(set, buf);
 }
 
-static void csv_size(csv_set *set, size_t v)
+void csv_finite(csv_set *set, double v)
+{
+    if (isfinite(v))
+        csv_num(set, v);
+    else
+        csv_str(set, "");
+}
+
+void csv_size(csv_set *set, size_t v)
 {
     char buf[32];
     snprintf(buf, sizeof buf, "%zu", v);
     csv_str(set, buf);
 }
 
-/* Writes state s: its number for numeric states, else its label. */
-static void csv_state(csv_set *set, size_t s)
+void csv_state(csv_set *set, size_t s)
 {
     if (lop_problem_numeric_states(set->p))
         csv_num(set, set->p->state_values[s]);
@@ -127,8 +123,7 @@ static void csv_state(csv_set *set, size_t s)
         csv_str(set, set->p->state_labels[s]);
 }
 
-/* Ends a line; data lines (not the header) are counted for index.csv. */
-static void csv_end_line(csv_set *set, bool data)
+void csv_end_line(csv_set *set, bool data)
 {
     fputs("\r\n", set->cur->out.file);
     set->fields = 0;
@@ -136,16 +131,14 @@ static void csv_end_line(csv_set *set, bool data)
         set->cur->rows++;
 }
 
-/* Writes a header line from a NULL-terminated list of names. */
-static void csv_header(csv_set *set, const char *const *names)
+void csv_header(csv_set *set, const char *const *names)
 {
     for (size_t i = 0; names[i]; i++)
         csv_str(set, names[i]);
     csv_end_line(set, false);
 }
 
-/* Closes the current file, keeping its temporary until all are renamed. */
-static void csv_end(csv_set *set)
+void csv_end(csv_set *set)
 {
     if (!set->cur)
         return;
@@ -266,11 +259,12 @@ static void table_summary(csv_set *set)
     const lop_problem *p = set->p;
     const lop_results *r = set->r;
     const lop_case_result *c = &r->kase;
-    const char *unit = score_unit(p);
-    char holds[320];
-    snprintf(holds, sizeof holds, "headline numbers of the case and the rule (scores in %s, "
-             "as %s) and provenance: one quantity per line, named as in the JSON", unit,
-             lop_problem_orientation(p));
+    const char *unit = csv_score_unit(p);
+    char holds[512];
+    snprintf(holds, sizeof holds, "headline numbers of the case, the rule and the value of "
+             "information (scores in %s, as %s) and provenance with the simulation's seed: one "
+             "quantity per line, named as in the JSON or as the workbook's defined names",
+             unit, lop_problem_orientation(p));
     if (!csv_begin(set, "summary.csv", holds))
         return;
     static const char *const head[] = {"quantity", "value", "unit", NULL};
@@ -321,14 +315,29 @@ static void table_summary(csv_set *set)
         if (rule->computed)
             summary_number(set, "value_of_evidence", rule->prior_only_risk - rule->bayes_risk, unit);
     }
+    const lop_value_result *v = &r->value;
+    if (v->present && v->computed) {
+        summary_number(set, "evpi_design", v->evpi, unit);
+        summary_number(set, "value_cost", p->value.cost, unit);
+        if (v->has_best) {
+            summary_text(set, "best_extra_channel",
+                         lop_report_channel_name(&p->channels[v->best_channel]), "");
+            summary_number(set, "best_extra_n", (double)v->best_n, "measurements");
+            summary_number(set, "best_extra_net", v->best_net, unit);
+        }
+    } else if (v->present) {
+        summary_text(set, "value_not_computed", v->not_computed_why, "");
+    }
     summary_text(set, "tool", "lopside", "");
     summary_text(set, "version", LOP_VERSION, "");
     summary_text(set, "input_path", set->prov->input_path, "");
     summary_text(set, "input_sha256", set->prov->sha256, "");
     summary_text(set, "generated", set->prov->generated, "UTC");
-    if (set->prov->has_seed) {
+    if (set->prov->has_seed || r->simulation.run) {
         char seed[32];
-        snprintf(seed, sizeof seed, "%llu", set->prov->seed);
+        snprintf(seed, sizeof seed, "%llu", set->prov->has_seed
+                                                ? set->prov->seed
+                                                : (unsigned long long)r->simulation.seed);
         summary_text(set, "seed", seed, "");
     }
     csv_end(set);
@@ -337,7 +346,7 @@ static void table_summary(csv_set *set)
 static void table_posterior(csv_set *set)
 {
     const lop_problem *p = set->p;
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "each state%s%s%s with its prior (normalized) and its "
              "posterior given every observed value",
              p->unit[0] ? " (" : "", p->unit, p->unit[0] ? ")" : "");
@@ -359,9 +368,9 @@ static void table_actions(csv_set *set)
     const lop_problem *p = set->p;
     if (p->estimate)
         return;
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "the expected %s (%s) of each action for the case; "
-             "bayes is 1 for the Bayes action", lop_problem_orientation(p), score_unit(p));
+             "bayes is 1 for the Bayes action", lop_problem_orientation(p), csv_score_unit(p));
     if (!csv_begin(set, "actions.csv", holds))
         return;
     const char *head[] = {"action", p->payoff ? "expected_payoff" : "expected_loss", "bayes",
@@ -381,9 +390,9 @@ static void table_estimate_curve(csv_set *set)
     const lop_problem *p = set->p;
     if (!p->estimate)
         return;
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "the expected %s (%s) of every estimate on the estimate "
-             "grid, for the case", lop_problem_orientation(p), score_unit(p));
+             "grid, for the case", lop_problem_orientation(p), csv_score_unit(p));
     if (!csv_begin(set, "estimate_curve.csv", holds))
         return;
     const char *head[] = {"estimate", p->payoff ? "expected_payoff" : "expected_loss", NULL};
@@ -403,9 +412,9 @@ static void table_scores(csv_set *set)
     const lop_problem *p = set->p;
     if (p->estimate || p->states_kind == LOP_STATES_GRID)
         return;
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "the %s table of the file (%s): one line per action, one "
-             "column per state", lop_problem_orientation(p), score_unit(p));
+             "column per state", lop_problem_orientation(p), csv_score_unit(p));
     if (!csv_begin(set, p->payoff ? "payoff.csv" : "loss.csv", holds))
         return;
     csv_str(set, "action");
@@ -517,7 +526,7 @@ static void table_rule_table(csv_set *set)
     if (!set->r->has_rule || !rule->computed || !rule->n_columns)
         return;
     bool decided = rule->numeric_channel < 0 && !p->estimate && rule->row_action;
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "every combination of outcomes of the outcome-table "
              "channels (a label per channel with one repeat, counts per outcome with several) "
              "and its probability before any evidence%s", decided ? "; the Bayes action and "
@@ -580,7 +589,7 @@ static void table_rule_grid(csv_set *set)
     if (p->estimate ? !rule->grid_estimate : !rule->grid_action)
         return;
     const lop_channel *c = &p->channels[rule->numeric_channel];
-    char holds[320];
+    char holds[512];
     snprintf(holds, sizeof holds, "the Bayes %s at every point x of the measurement grid "
              "of %s%s, for every row of rule_table.csv (row; given describes it)",
              p->estimate ? "estimate" : "action",
@@ -676,7 +685,7 @@ lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_resul
         table_summary,      table_posterior,   table_actions,
         table_estimate_curve, table_scores,       table_outcome_model, table_noise_model,
         table_observations, table_rule_table,  table_rule_grid,
-        table_switch_points, table_warnings,   table_index,
+        table_switch_points, csv_tables_studies, table_warnings, table_index,
     };
     for (size_t t = 0; t < sizeof tables / sizeof tables[0] && set->status == LOP_OK; t++)
         tables[t](set);
@@ -689,6 +698,7 @@ lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_resul
             lop_outfile_abandon(&set->files[i].out);
     }
     lop_status st = set->status;
+    free(set->files);
     free(set);
     return st;
 }

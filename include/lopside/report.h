@@ -38,9 +38,10 @@ const char *lop_report_noise_name(const lop_channel *c);
 lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_results *r,
                           const lop_provenance *prov, lop_error *err);
 
-/* Returns LOP_OK after writing the XLSX workbook (Summary, Case, Rule, Inputs) to path
- * through a temporary in the same folder, renamed over path when complete; on failure
- * the old file is untouched and err names the path and libxlsxwriter's reason. */
+/* Returns LOP_OK after writing the XLSX workbook (Summary, Case, Rule, and as the file asks
+ * Rules, Value, a sheet per sweep, Designs and Simulation, then Inputs) to path through a
+ * temporary in the same folder, renamed over path when complete; on failure the old file
+ * is untouched and err names the path and libxlsxwriter's reason. */
 lop_status lop_report_xlsx(const char *path, const lop_problem *p, const lop_results *r,
                            const lop_provenance *prov, lop_error *err);
 

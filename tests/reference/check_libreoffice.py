@@ -1,6 +1,7 @@
 #!/usr/bin/python3
 """Recalculates lopside's workbooks with LibreOffice and compares the live formulas with the
-engine's JSON; renders them to PDF to see that the pages and charts are drawn; edits a payoff
+engine's JSON; renders every workbook to PDF to see that its pages, the sheets of the studies
+(Rules, Value, one per sweep, Designs, Simulation) and their charts are drawn; edits a payoff
 with openpyxl and checks that the Bayes action flips as a hand calculation says.
 
 Run by tests/check_libreoffice.sh (which installs LibreOffice where it can), from the
@@ -33,6 +34,7 @@ import openpyxl
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import check_workbook as cw  # noqa: E402  (the problems and readers are shared)
+import workbook_studies as studies  # noqa: E402
 
 SOFFICE = os.environ.get("SOFFICE", "soffice")
 REL = 1e-9
@@ -158,7 +160,17 @@ def check_variant(c, lo_case, lo_summary, xlsx, expected, j):
             abs(expected["say_yes"] - expected["say_no"]), REL)
 
 
-def check_pdf(c, name, pdf, sheets, charts):
+# Sheets whose title (A1) and chart titles must appear in the PDF: the studies' sheets.
+STUDY_SHEETS = ("Rules", "Value", "Designs", "Simulation")
+
+
+def study_sheets(wb, j):
+    """The sheets of the studies in workbook wb of run j."""
+    sweeps = studies.sweep_sheet_names(j)
+    return [ws for ws in wb.worksheets if ws.title in STUDY_SHEETS or ws.title in sweeps]
+
+
+def check_pdf(c, name, pdf, sheets, charts, titles=()):
     info = subprocess.run(["pdfinfo", pdf], capture_output=True, text=True).stdout
     pages = int(re.search(r"Pages:\s+(\d+)", info).group(1))
     c.ok(f"{name}: PDF has a page per sheet at least", pages >= len(sheets), f"{pages} pages")
@@ -169,9 +181,12 @@ def check_pdf(c, name, pdf, sheets, charts):
         if not text.strip():
             empty.append(p)
     c.ok(f"{name}: no empty PDF page", not empty, f"empty pages {empty}")
-    text = subprocess.run(["pdftotext", pdf, "-"], capture_output=True, text=True).stdout
+    text = " ".join(subprocess.run(["pdftotext", pdf, "-"], capture_output=True,
+                                   text=True).stdout.split())
     for title in charts:
-        c.ok(f"{name}: chart drawn: {title}", title in " ".join(text.split()))
+        c.ok(f"{name}: chart drawn: {title}", title in text)
+    for title in titles:
+        c.ok(f"{name}: sheet drawn: {title}", " ".join(title.split()) in text)
 
 
 def main():
@@ -196,19 +211,25 @@ def main():
         soffice(profile, ["--convert-to", "pdf", "--outdir", out] + books, tmp)
         for name, j in runs.items():
             try:
-                if not cw.is_live(j):
-                    print(f"ok {name} (values only: nothing to recalculate)")
-                    continue
-                check_recalculated(c, name, j, os.path.join(tmp, f"{name}.xlsx"),
-                                   lo_sheet(out, f"stale_{name}", "Case"),
-                                   lo_sheet(out, f"stale_{name}", "Summary"))
-                sheets = openpyxl.load_workbook(os.path.join(tmp, f"{name}.xlsx")).sheetnames
+                if cw.is_live(j):
+                    check_recalculated(c, name, j, os.path.join(tmp, f"{name}.xlsx"),
+                                       lo_sheet(out, f"stale_{name}", "Case"),
+                                       lo_sheet(out, f"stale_{name}", "Summary"))
+                wb = openpyxl.load_workbook(os.path.join(tmp, f"{name}.xlsx"))
                 charts = ["Prior and posterior of each state"]
                 if j["rule"] and j["rule"]["computed"]:
-                    charts.append("The Bayes action at each measurement" if "grid" in j["rule"]
+                    charts.append("The Bayes estimate at each measurement"
+                                  if "bayes_estimate" in j["case"]
+                                  else "The Bayes action at each measurement" if "grid" in j["rule"]
                                   else "Probability of each outcome combination")
-                check_pdf(c, name, os.path.join(out, f"{name}.pdf"), sheets, charts)
-                print(f"ok {name}")
+                titles = []
+                for ws in study_sheets(wb, j):
+                    titles.append(ws["A1"].value)
+                    charts += [t for t in studies.chart_titles(ws) if t]
+                check_pdf(c, name, os.path.join(out, f"{name}.pdf"), wb.sheetnames, charts,
+                          titles)
+                print(f"ok {name}" + ("" if cw.is_live(j) else
+                                      " (values only: nothing to recalculate)"))
             except Exception:
                 c.ok(f"{name} checked", False, traceback.format_exc())
         check_variant(c, lo_sheet(out, "variant", "Case"), lo_sheet(out, "variant", "Summary"),

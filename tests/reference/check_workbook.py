@@ -7,7 +7,10 @@ folder; the problem files themselves are read with configparser for the loss/pay
 which the JSON does not repeat. For every example in examples/, the demo, and a few small
 problems written here (an outcome table with repeats and three actions, numeric states with a
 gaussian channel in a payoff file, a problem without evidence, two numeric channels whose rule
-is not computed), it checks:
+is not computed, and five problems with studies: rules that cannot be judged, two priced
+channels, sweeps whose names clash or hold forbidden characters, a two-axis path sweep, designs
+reached and not, a two-axis threshold sweep, sweeps and a simulation on grid states, an
+estimate's sweep, and studies whose rule cannot be computed), it checks:
 
 - the sheet names and their order, the defined names and the values they point at;
 - every native table: Case's evidence model, observations, posterior, loss or payoff table and
@@ -16,7 +19,11 @@ is not computed), it checks:
   INDEX/MATCH for the Bayes action, _xlfn.NORM.DIST for gaussian channels) with cached values
   equal to the JSON, and that the Summary cites them;
 - the provenance (SHA-256 recomputed here with hashlib);
-- every CSV file against the JSON, index.csv against the folder;
+- the sheets of the studies (workbook_studies.py): Rules, Value, one sheet per sweep (named
+  by the README's rule), Designs and Simulation, every table against the JSON, the grids and
+  their colour scales, chart titles, number formats and column widths; the headline names
+  evpi_design and best_extra_* and the seed on the Summary, which lists every sheet;
+- every CSV file against the JSON, index.csv against the folder, the sweeps' file names;
 - safety: bad input writes nothing; a missing folder or a file-size limit (standing in for a
   full disk) fails with exit 1, names the path, leaves the old files untouched and no
   temporary behind.
@@ -45,6 +52,9 @@ import tempfile
 import traceback
 
 import openpyxl
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import workbook_studies as studies  # noqa: E402
 
 LOPSIDE = os.path.abspath(os.environ.get("LOPSIDE", "build/lopside"))
 REL = 1e-15
@@ -136,7 +146,253 @@ labels = no, yes
 no = 0, 3
 yes = 1, 0
 """,
+    "studies_feeder": """[problem]
+title = Feeder check with studies
+notes = Invented numbers, for the workbook tests of the studies.
+score_unit = drops
+
+[states]
+labels = empty, full
+
+[prior]
+weights = 0.4, 0.6
+
+[evidence.sensor]
+outcomes = low, high
+given.empty = 0.8, 0.2
+given.full = 0.3, 0.7
+observed = low
+
+[evidence.scale]
+noise = gaussian
+mean = 0, 2
+sd = 1
+observed = 0.8
+
+[actions]
+labels = wait, refill
+
+[loss]
+wait = 6, 0
+refill = 1, 2
+
+[rule.cautious]              ; not judged with an outcome table: the sheet says why
+kind = threshold
+at = 0.5
+
+[rule.optimist]
+kind = believed
+prior.weights[1] = 0.2
+prior.weights[2] = 0.8
+
+[value]
+cost = 0.05
+up_to = 3
+
+[sweep.Rules]                ; the name of a sheet of the workbook
+x = loss.wait[1]
+x_from = 2
+x_to = 10
+x_points = 5
+
+[sweep.rules]                ; the same name but for case
+x = loss.wait[2]
+x_from = 0
+x_to = 1
+x_points = 3
+
+[sweep.grid: refill cost / scale sd? (a long name)]
+x = loss.refill[1]
+x_from = 0.5
+x_to = 3
+x_points = 4
+y = evidence.scale.sd
+y_from = 0.5
+y_to = 2
+y_points = 3
+
+[design.refill_0_4_of_the_time]
+vary = loss.refill[1]
+from = 0
+to = 5
+goal = choice_rate.refill
+equals = 0.4
+
+[design.unreachable_risk]
+vary = loss.refill[2]
+from = 0
+to = 1
+goal = risk
+equals = 100
+
+[design.always_refill]
+vary = loss.wait[2]
+from = 0
+to = 0.5
+goal = action
+equals = wait
+
+[simulate]
+sessions = 300
+trials = 50
+seed = 7
+rules = bayes, cautious, optimist
+floor = 40
+""",
+    "studies_roc": """[problem]
+title = Detection thresholds against the signal's strength
+score_unit = cents
+
+[states]
+labels = noise, signal
+
+[prior]
+weights = 0.5, 0.5
+
+[evidence.eye]
+noise = gaussian
+mean = 0, 1
+sd = 1
+observed = 0.3
+
+[actions]
+labels = no, yes
+
+[loss]
+no = 0, 5
+yes = 2, 0
+
+[sweep.roc]
+x = rule.threshold
+x_from = -1
+x_to = 2
+x_points = 7
+y = evidence.eye.mean[2]
+y_from = 0.5
+y_to = 2
+y_points = 3
+""",
+    "studies_grid": """[problem]
+title = Short or long on a grid of durations
+unit = ms
+
+[states]
+from = 0
+to = 100
+points = 101
+
+[prior]
+family = normal
+mean = 50
+sd = 15
+
+[evidence.timer]
+noise = gaussian
+sd = 10
+observed = 55
+
+[actions]
+labels = short, long
+
+[loss]
+cuts = 50
+short = 0, 3
+long = 2, 0
+
+[sweep.long_cost]
+x = loss.long[1]
+x_from = 1
+x_to = 4
+x_points = 4
+
+[sweep.criterion]
+x = rule.threshold
+x_from = 30
+x_to = 70
+x_points = 9
+
+[value]
+up_to = 2
+
+[simulate]
+sessions = 200
+trials = 30
+seed = 3
+""",
+    "studies_estimate": """[problem]
+title = Estimating a length with a tolerance band
+unit = mm
+score_unit = points
+
+[states]
+from = 0
+to = 20
+points = 201
+
+[prior]
+family = normal
+mean = 10
+sd = 3
+
+[evidence.ruler]
+noise = gaussian
+sd = 2
+observed = 12
+
+[actions]
+estimate = yes
+
+[payoff]
+curve = tolerance
+half_width = 1
+inside = 5
+outside = 0
+
+[rule.mean]
+kind = posterior_mean
+
+[sweep.ruler_sd]
+x = evidence.ruler.sd
+x_from = 0.5
+x_to = 4
+x_points = 5
+
+[design.payoff_of_two]
+vary = evidence.ruler.sd
+from = 0.5
+to = 6
+goal = risk
+equals = 2
+
+[simulate]
+sessions = 100
+trials = 20
+seed = 11
+rules = bayes, mean
+""",
 }
+
+# Two numeric channels: the rule, the design values, the sweep's points and the design
+# cannot be computed; the case's value of one more measurement and the simulation can.
+EXTRA["studies_uncomputed"] = EXTRA["two_readings"] + """[value]
+up_to = 2
+cost = 0.01
+[sweep.b_sd]
+x = evidence.b.sd
+x_from = 1
+x_to = 2
+x_points = 3
+[design.no_rule]
+vary = evidence.b.sd
+from = 1
+to = 2
+goal = choice_rate.yes
+equals = 0.5
+[simulate]
+sessions = 50
+trials = 20
+seed = 5
+"""
 
 
 class Checks:
@@ -259,8 +515,7 @@ def check_values_workbook(c, name, j, xlsx, text):
     orient = j["orientation"]
     wb = openpyxl.load_workbook(xlsx, data_only=True)
     has_rule = j["rule"] is not None
-    want = ["Summary", "Case"] + (["Rule"] if has_rule else []) + ["Inputs"]
-    c.equal(f"{name}: sheets", wb.sheetnames, want)
+    c.equal(f"{name}: sheets", wb.sheetnames, studies.expected_sheets(j))
     names = names_of(wb)
     kase = j["case"]
     key = "expected_payoff" if orient == "payoff" else "expected_loss"
@@ -297,6 +552,10 @@ def check_values_workbook(c, name, j, xlsx, text):
     if lines and lines[-1] == "":
         lines.pop()
     c.equal(f"{name}: inputs text", [r[1] or "" for r in irows], lines)
+    studies.check_study_sheets(c, name, j, wb, names, text)
+    for sheet in wb.sheetnames[1:]:
+        if wb[sheet].tables:
+            c.ok(f"{name}: {sheet} has frozen rows", wb[sheet].freeze_panes is not None)
 
 
 def check_workbook(c, name, j, xlsx, text):
@@ -308,8 +567,7 @@ def check_workbook(c, name, j, xlsx, text):
     wb = openpyxl.load_workbook(xlsx, data_only=True)   # the cached values
     wf = openpyxl.load_workbook(xlsx)                   # the formulas
     has_rule = j["rule"] is not None
-    want = ["Summary", "Case"] + (["Rule"] if has_rule else []) + ["Inputs"]
-    c.equal(f"{name}: sheets", wb.sheetnames, want)
+    c.equal(f"{name}: sheets", wb.sheetnames, studies.expected_sheets(j))
 
     # Defined names on the Summary and what they hold.
     names = names_of(wb)
@@ -327,6 +585,7 @@ def check_workbook(c, name, j, xlsx, text):
         for key in scores + ("value_of_evidence", "prior_only_action"):
             if rule.get(key) is not None:
                 expect[key] = rule[key]
+    expect.update(studies.study_names(j))
     c.equal(f"{name}: defined names", sorted(names), sorted(expect))
     for key, value in expect.items():
         if key not in names:
@@ -449,6 +708,7 @@ def check_workbook(c, name, j, xlsx, text):
     for sheet in wb.sheetnames[1:]:
         if wb[sheet].tables:
             c.ok(f"{name}: {sheet} has frozen rows", wb[sheet].freeze_panes is not None)
+    studies.check_study_sheets(c, name, j, wb, names, text)
 
 
 def check_rule(c, name, j, ws, unit):
@@ -525,9 +785,11 @@ def check_csv(c, name, j, folder):
         c.equal(f"{name}: posterior.csv", [float(r[2]) for r in rows], post)
         h, rows = read_csv(os.path.join(folder, "warnings.csv"))
         c.equal(f"{name}: warnings.csv", [r[0] for r in rows], j["warnings"])
+        studies.check_study_csv(c, name, j, folder, files, read_csv)
         return
     check_index(c, name, folder, files)
     check_tables(c, name, j, folder, files)
+    studies.check_study_csv(c, name, j, folder, files, read_csv)
 
 
 def check_index(c, name, folder, files):

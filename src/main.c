@@ -181,6 +181,8 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     }
     lop_provenance prov;
     lop_provenance_fill(&prov, cfg->path, cfg->text, cfg->text_len);
+    prov.has_seed = p->simulate.present;
+    prov.seed = p->simulate.seed;
     if (json && lop_report_json(json, p, results, &prov, &err) != LOP_OK)
         goto fail;
     if (workbook && lop_report_xlsx(workbook, p, results, &prov, &err) != LOP_OK)
@@ -188,7 +190,7 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     if (csv && lop_report_csv(csv, p, results, &prov, &err) != LOP_OK)
         goto fail;
     if (!opt->quiet)
-        lop_report_text(stdout, p, results);
+        lop_report_text(stdout, p, results, &prov);
     if (!opt->quiet && (json || workbook || csv))
         fputc('\n', stdout);
     if (json && !opt->quiet)

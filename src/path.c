@@ -79,3 +79,13 @@ lop_status lop_path_set(lop_config *cfg, const char *path, const char *value,
     free(joined);
     return rc == 0 ? LOP_OK : lop_error_run(err, "out of memory");
 }
+
+const char *lop_path_key(const char *path)
+{
+    const char *bracket = strchr(path, '[');
+    const char *dot = NULL;
+    for (const char *c = path; *c && (!bracket || c < bracket); c++)
+        if (*c == '.')
+            dot = c;
+    return dot ? dot + 1 : path;
+}

@@ -22,6 +22,14 @@ static const struct {
 
 #define COUNT(x) (sizeof(x) / sizeof(x)[0])
 
+const char *lop_rule_kind_name(lop_rule_kind kind)
+{
+    for (size_t k = 0; k < COUNT(kinds); k++)
+        if (kinds[k].kind == kind)
+            return kinds[k].name;
+    return "unknown";
+}
+
 static lop_status build_believed(builder *b, const char *section, lop_rule_spec *r)
 {
     lop_config *copy = lop_config_copy(b->cfg);

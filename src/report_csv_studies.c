@@ -15,10 +15,6 @@
 /* Characters of a sweep's name kept in its file names; longer names are cut. */
 #define FILE_NAME_CHARS 100
 
-static const char *const kind_names[] = {"posterior_mean", "posterior_median",
-                                         "posterior_mode", "max_likelihood", "threshold",
-                                         "believed"};
-
 /* A channel's name by index. */
 static const char *channel(const lop_problem *p, size_t i)
 {
@@ -63,7 +59,7 @@ static void table_rules(csv_set *set)
     for (size_t k = 0; k < r->n_compared; k++) {
         const lop_compared_rule *c = &r->compared[k];
         csv_str(set, c->name);
-        csv_str(set, kind_names[p->rules[k].kind]);
+        csv_str(set, lop_rule_kind_name(p->rules[k].kind));
         if (c->computed) {
             csv_num(set, lop_problem_oriented(p, c->risk));
             csv_num(set, c->regret);

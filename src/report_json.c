@@ -232,15 +232,12 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
 
 static json_t *rules_json(const lop_problem *p, const lop_results *r)
 {
-    static const char *const kinds[] = {"posterior_mean", "posterior_median",
-                                        "posterior_mode", "max_likelihood", "threshold",
-                                        "believed"};
     json_t *arr = json_array();
     for (size_t k = 0; k < r->n_compared; k++) {
         const lop_compared_rule *c = &r->compared[k];
         json_t *obj = json_object();
         json_object_set_new(obj, "name", json_string(c->name));
-        json_object_set_new(obj, "kind", json_string(kinds[p->rules[k].kind]));
+        json_object_set_new(obj, "kind", json_string(lop_rule_kind_name(p->rules[k].kind)));
         json_object_set_new(obj, "computed", json_boolean(c->computed));
         if (c->computed) {
             set_score(obj, p, "risk", "payoff", c->risk);
@@ -364,6 +361,8 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     json_object_set_new(input, "sha256", json_string(prov->sha256));
     json_object_set_new(root, "input", input);
     json_object_set_new(root, "generated", json_string(prov->generated));
+    json_object_set_new(root, "seed",
+                        prov->has_seed ? json_integer((json_int_t)prov->seed) : json_null());
     json_object_set_new(root, "orientation", json_string(lop_problem_orientation(p)));
     json_object_set_new(root, "problem", problem_json(p));
     json_object_set_new(root, "case", case_json(p, r));

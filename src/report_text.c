@@ -292,10 +292,6 @@ static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
                 rule->prior_only_risk - rule->bayes_risk, unit);
 }
 
-static const char *const kind_names[] = {"posterior_mean", "posterior_median",
-                                         "posterior_mode", "max_likelihood", "threshold",
-                                         "believed"};
-
 static void print_compared(FILE *out, const lop_problem *p, const lop_results *r)
 {
     size_t w = 10;
@@ -309,7 +305,7 @@ static void print_compared(FILE *out, const lop_problem *p, const lop_results *r
             lop_problem_oriented(p, r->rule.bayes_risk), "0");
     for (size_t k = 0; k < r->n_compared; k++) {
         const lop_compared_rule *c = &r->compared[k];
-        fprintf(out, "  %-*s  %-16s", (int)w, c->name, kind_names[p->rules[k].kind]);
+        fprintf(out, "  %-*s  %-16s", (int)w, c->name, lop_rule_kind_name(p->rules[k].kind));
         if (c->computed)
             fprintf(out, "  %12.6g  %12.6g\n", lop_problem_oriented(p, c->risk), c->regret);
         else
@@ -424,7 +420,8 @@ static void print_simulation(FILE *out, const lop_problem *p, const lop_results 
                 (double)sim->sessions * (double)sim->trials / sim->seconds / 1e6);
 }
 
-void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
+void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
+                     const lop_provenance *prov)
 {
     print_summary_line(out, p);
     print_case(out, p, r);
@@ -440,6 +437,11 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r)
         for (size_t i = 0; i < r->n_warnings; i++)
             fprintf(out, "  - %s\n", r->warnings[i]);
     }
+    fprintf(out, "\nlopside %s, %s, input %s (SHA-256 %.12s...)", LOP_VERSION, prov->generated,
+            prov->input_path, prov->sha256);
+    if (prov->has_seed)
+        fprintf(out, ", seed %llu", prov->seed);
+    fputc('\n', out);
 }
 
 static void print_channel_detail(FILE *out, const lop_problem *p, const lop_channel *c, int sw)
@@ -484,7 +486,7 @@ static void print_studies(FILE *out, const lop_problem *p)
     if (p->n_rules || p->value.present || p->n_sweeps || p->n_designs || p->simulate.present)
         fputc('\n', out);
     for (size_t k = 0; k < p->n_rules; k++)
-        fprintf(out, "  rule %s: %s\n", p->rules[k].name, kind_names[p->rules[k].kind]);
+        fprintf(out, "  rule %s: %s\n", p->rules[k].name, lop_rule_kind_name(p->rules[k].kind));
     if (p->value.present)
         fprintf(out, "  value: %zu channel%s, up to %zu extra repeats at %g %s each\n",
                 p->value.n_channels, p->value.n_channels == 1 ? "" : "s", p->value.up_to,

@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "lopside/path.h"
 #include "lopside/report.h"
 #include "report_studies.h"
 
@@ -163,26 +164,14 @@ static void print_rates(FILE *out, const lop_problem *p, const lop_sweep_result 
         }
 }
 
-/* The last part of a path (its key), as a column head: "say_yes[1]" of
- * "payoff.say_yes[1]". */
-static const char *path_head(const char *path)
-{
-    const char *bracket = strchr(path, '[');
-    const char *dot = NULL;
-    for (const char *c = path; *c && (!bracket || c < bracket); c++)
-        if (*c == '.')
-            dot = c;
-    return dot ? dot + 1 : path;
-}
-
 static void print_path_sweep(FILE *out, const lop_problem *p, const lop_sweep_result *w)
 {
     const lop_sweep_spec *spec = w->spec;
     size_t n = w->nx * w->ny, shown = n < SWEEP_ROWS ? n : SWEEP_ROWS;
     size_t cols = rate_columns(p, w, p->n_actions);
-    fprintf(out, "  %14.14s", path_head(spec->x));
+    fprintf(out, "  %14.14s", lop_path_key(spec->x));
     if (spec->y)
-        fprintf(out, "  %14.14s", path_head(spec->y));
+        fprintf(out, "  %14.14s", lop_path_key(spec->y));
     fprintf(out, "  %12s  %12s  %14s", risk_word(p), "EVPI",
             p->estimate ? "case estimate" : "case action");
     if (p->estimate)

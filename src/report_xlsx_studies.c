@@ -13,10 +13,6 @@
 /* Rows a chart takes on the sheet at its default size and scale 1. */
 #define CHART_ROWS 16
 
-static const char *const kind_names[] = {"posterior_mean", "posterior_median",
-                                         "posterior_mode", "max_likelihood", "threshold",
-                                         "believed"};
-
 /* Writes a number when it is finite, a blank cell otherwise (JSON's null). */
 static void put_finite(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row, lxw_col_t col, double v,
                        lxw_format *fmt)
@@ -120,7 +116,7 @@ void xw_sheet_rules(xlsx_writer *w, lxw_worksheet *ws)
         const lop_compared_rule *c = &r->compared[k];
         row++;
         xw_put_text(w, ws, row, 0, c->name, NULL);
-        xw_put_text(w, ws, row, 1, kind_names[p->rules[k].kind], NULL);
+        xw_put_text(w, ws, row, 1, lop_rule_kind_name(p->rules[k].kind), NULL);
         const char *decides = rule_decides(p, k, text, sizeof text);
         xw_put_text(w, ws, row, 2, decides, NULL);
         widest = strlen(decides) > widest ? strlen(decides) : widest;

@@ -14,4 +14,8 @@
 lop_status lop_path_set(lop_config *cfg, const char *path, const char *value,
                         const char *where, int line, lop_error *err);
 
+/* Returns the last part of a path, to name an axis briefly: "say_yes[1]" of
+ * "payoff.say_yes[1]" (a pointer into path). */
+const char *lop_path_key(const char *path);
+
 #endif

@@ -185,6 +185,9 @@ bool lop_problem_numeric_states(const lop_problem *p);
 /* Returns the number of channels whose measurement is a number rather than a label. */
 size_t lop_problem_numeric_channels(const lop_problem *p);
 
+/* Returns the name of a rule kind as the file spells it, e.g. "posterior_mean". */
+const char *lop_rule_kind_name(lop_rule_kind kind);
+
 /* Returns the word for the file's orientation: "loss" or "payoff". */
 const char *lop_problem_orientation(const lop_problem *p);
 

@@ -13,7 +13,7 @@ typedef struct {
     char generated[32];       /* UTC, ISO 8601 */
     const char *input_text;   /* the input bytes (not owned), shown by the workbook */
     size_t input_len;
-    bool has_seed;            /* a random seed was used; false until something sets it */
+    bool has_seed;            /* a random seed was used ([simulate]) */
     unsigned long long seed;
 } lop_provenance;
 

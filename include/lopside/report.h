@@ -13,7 +13,8 @@
 const char *lop_report_channel_name(const lop_channel *c);
 
 /* Writes the report for a person at a terminal to out. */
-void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r);
+void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
+                     const lop_provenance *prov);
 
 /* Writes the parsed problem, as `lopside check` shows it, to out. */
 void lop_report_problem(FILE *out, const lop_problem *p);

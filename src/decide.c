@@ -56,26 +56,43 @@ double lop_decide_perfect(const lop_problem *p, const double *w)
     return sum;
 }
 
+/* The least loss over the estimate grid of estimating `state`, trying the grid points
+ * next to `target` (the loss is piecewise monotone between its breakpoints). */
+static double best_near(const lop_problem *p, double state, double target, double best)
+{
+    const double *x = p->estimates;
+    size_t lo = 0, hi = p->n_estimates; /* first estimate above target */
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (x[mid] <= target)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    for (size_t j = lo > 0 ? lo - 1 : 0; j <= lo && j < p->n_estimates; j++)
+        best = fmin(best, lop_curve_loss(&p->curve, x[j], state));
+    return best;
+}
+
 double lop_decide_perfect_estimate(const lop_problem *p, const double *w)
 {
+    /* With the state known the decider still answers with a point of the estimate grid
+     * (the actions). Its loss as a function of the estimate is monotone between
+     * breakpoints at the errors 0 (every curve's minimum or band) and the knots of a
+     * `points` curve, so the best grid point is a neighbour of one of them, or an end. */
     const lop_curve *c = &p->curve;
-    /* The error the curve likes best: 0 for every curve but `points`, whose minimum
-     * lies on a knot. */
-    double best_e = 0;
-    if (c->kind == LOP_CURVE_POINTS) {
-        size_t k = 0;
-        for (size_t i = 1; i < c->n_points; i++)
-            if (c->value[i] < c->value[k])
-                k = i;
-        best_e = c->error[k];
-    }
-    double lo = p->estimates[0], hi = p->estimates[p->n_estimates - 1], sum = 0;
+    size_t n_knots = c->kind == LOP_CURVE_POINTS ? c->n_points : 0;
+    double sum = 0;
     for (size_t s = 0; s < p->n_states; s++) {
         if (w[s] == 0)
             continue;
         double x = p->state_values[s];
-        double e = c->relative ? x * (1 + best_e) : x + best_e;
-        sum += w[s] * lop_curve_loss(c, fmin(hi, fmax(lo, e)), x);
+        double best = fmin(lop_curve_loss(c, p->estimates[0], x),
+                           lop_curve_loss(c, p->estimates[p->n_estimates - 1], x));
+        best = best_near(p, x, x, best);
+        for (size_t k = 0; k < n_knots; k++)
+            best = best_near(p, x, c->relative ? x * (1 + c->error[k]) : x + c->error[k], best);
+        sum += w[s] * best;
     }
     return sum;
 }

@@ -131,6 +131,7 @@ int lop_evidence_kernel_init(lop_evidence_kernel *kern, const lop_channel *c,
     kern->c = c;
     kern->n_states = n_states;
     kern->repeats = n;
+    kern->negligible = -INFINITY;
     kern->a = malloc(n_states * sizeof *kern->a);
     kern->b = malloc(n_states * sizeof *kern->b);
     kern->k = malloc(n_states * sizeof *kern->k);

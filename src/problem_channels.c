@@ -159,6 +159,7 @@ static lop_status build_measurement_grid(builder *b, lop_channel *c)
         c->grid_given = true;
     }
     c->grid_points = GRID_POINTS_DEFAULT;
+    c->grid_points_given = points != NULL;
     if (points &&
         lop_parse_count(b->cfg, points, 2, GRID_POINTS_MAX, &c->grid_points, b->err) != LOP_OK)
         return b->err->status;

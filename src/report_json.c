@@ -1,17 +1,22 @@
 #include <jansson.h>
+#include <math.h>
 #include <string.h>
 
 #include "lopside/outfile.h"
 #include "lopside/report.h"
 #include "report_studies.h"
 
-/* Adds `key` (a loss) and, for payoff problems, `payoff_key` with the sign flipped. */
-static void set_score(json_t *obj, const lop_problem *p, const char *key,
-                      const char *payoff_key, double loss)
+json_t *lop_json_number(double v)
 {
-    json_object_set_new(obj, key, json_real(loss));
+    return isfinite(v) ? json_real(v) : json_null();
+}
+
+void lop_json_score(json_t *obj, const lop_problem *p, const char *key, const char *payoff_key,
+                    double loss)
+{
+    json_object_set_new(obj, key, lop_json_number(loss));
     if (p->payoff)
-        json_object_set_new(obj, payoff_key, json_real(-loss));
+        json_object_set_new(obj, payoff_key, lop_json_number(-loss));
 }
 
 static json_t *string_array(char **items, size_t n)
@@ -26,7 +31,7 @@ static json_t *real_array(const double *v, size_t n)
 {
     json_t *arr = json_array();
     for (size_t i = 0; i < n; i++)
-        json_array_append_new(arr, json_real(v[i]));
+        json_array_append_new(arr, lop_json_number(v[i]));
     return arr;
 }
 
@@ -46,8 +51,8 @@ static json_t *problem_json(const lop_problem *p)
     json_object_set_new(obj, "states", states);
     json_object_set_new(obj, "prior", real_array(p->prior, p->n_states));
     if (p->states_kind == LOP_STATES_GRID) {
-        json_object_set_new(obj, "step", json_real(p->step));
-        json_object_set_new(obj, "prior_outside_grid", json_real(p->prior_outside));
+        json_object_set_new(obj, "step", lop_json_number(p->step));
+        json_object_set_new(obj, "prior_outside_grid", lop_json_number(p->prior_outside));
     }
     if (p->estimate)
         json_object_set_new(obj, "estimates", real_array(p->estimates, p->n_estimates));
@@ -73,12 +78,12 @@ static json_t *problem_json(const lop_problem *p)
 
 static json_t *summary_json(const lop_summary *m, json_t *obj)
 {
-    json_object_set_new(obj, "mean", json_real(m->mean));
-    json_object_set_new(obj, "sd", json_real(m->sd));
-    json_object_set_new(obj, "median", json_real(m->median));
-    json_object_set_new(obj, "mode", json_real(m->mode));
-    json_object_set_new(obj, "q05", json_real(m->q05));
-    json_object_set_new(obj, "q95", json_real(m->q95));
+    json_object_set_new(obj, "mean", lop_json_number(m->mean));
+    json_object_set_new(obj, "sd", lop_json_number(m->sd));
+    json_object_set_new(obj, "median", lop_json_number(m->median));
+    json_object_set_new(obj, "mode", lop_json_number(m->mode));
+    json_object_set_new(obj, "q05", lop_json_number(m->q05));
+    json_object_set_new(obj, "q95", lop_json_number(m->q95));
     return obj;
 }
 
@@ -99,33 +104,33 @@ static json_t *case_json(const lop_problem *p, const lop_results *r)
     if (p->states_kind == LOP_STATES_GRID)
         json_object_set_new(obj, "posterior_grid", real_array(c->posterior, p->n_states));
     if (p->estimate) {
-        json_object_set_new(obj, "bayes_action", json_real(c->bayes_estimate));
-        json_object_set_new(obj, "bayes_estimate", json_real(c->bayes_estimate));
-        set_score(obj, p, "expected_loss", "expected_payoff", c->bayes_estimate_loss);
+        json_object_set_new(obj, "bayes_action", lop_json_number(c->bayes_estimate));
+        json_object_set_new(obj, "bayes_estimate", lop_json_number(c->bayes_estimate));
+        lop_json_score(obj, p, "expected_loss", "expected_payoff", c->bayes_estimate_loss);
         json_t *curve = json_object();
         json_object_set_new(curve, "estimate", real_array(p->estimates, p->n_estimates));
         json_object_set_new(curve, "expected_loss", real_array(c->estimate_curve, p->n_estimates));
         json_object_set_new(obj, "curve", curve);
-        json_object_set_new(obj, "evpi", json_real(c->evpi));
+        json_object_set_new(obj, "evpi", lop_json_number(c->evpi));
         return obj;
     }
     json_t *actions = json_array();
     for (size_t a = 0; a < p->n_actions; a++) {
         json_t *row = json_object();
         json_object_set_new(row, "action", json_string(p->actions[a]));
-        set_score(row, p, "expected_loss", "expected_payoff", c->expected_loss[a]);
+        lop_json_score(row, p, "expected_loss", "expected_payoff", c->expected_loss[a]);
         json_array_append_new(actions, row);
     }
     json_object_set_new(obj, "actions", actions);
     json_object_set_new(obj, "bayes_action", json_string(p->actions[c->bayes_action]));
-    set_score(obj, p, "expected_loss", "expected_payoff", c->expected_loss[c->bayes_action]);
+    lop_json_score(obj, p, "expected_loss", "expected_payoff", c->expected_loss[c->bayes_action]);
     json_object_set_new(obj, "runner_up", json_string(p->actions[c->runner_up]));
-    json_object_set_new(obj, "margin", json_real(c->margin));
+    json_object_set_new(obj, "margin", lop_json_number(c->margin));
     json_t *tied = json_array();
     for (size_t t = 0; c->n_tied > 1 && t < c->n_tied; t++)
         json_array_append_new(tied, json_string(p->actions[c->tied[t]]));
     json_object_set_new(obj, "ties", tied);
-    json_object_set_new(obj, "evpi", json_real(c->evpi));
+    json_object_set_new(obj, "evpi", lop_json_number(c->evpi));
     return obj;
 }
 
@@ -160,7 +165,7 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
     const lop_rule_result *rule = &r->rule;
     json_t *obj = json_object();
     json_object_set_new(obj, "computed", json_boolean(rule->computed));
-    set_score(obj, p, "prior_only_risk", "prior_only_payoff", rule->prior_only_risk);
+    lop_json_score(obj, p, "prior_only_risk", "prior_only_payoff", rule->prior_only_risk);
     if (!p->estimate)
         json_object_set_new(obj, "prior_only_action",
                             json_string(p->actions[rule->prior_only_action]));
@@ -170,17 +175,17 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
         json_object_set_new(obj, "switch_points", json_array());
         return obj;
     }
-    set_score(obj, p, "bayes_risk", "bayes_payoff", rule->bayes_risk);
+    lop_json_score(obj, p, "bayes_risk", "bayes_payoff", rule->bayes_risk);
     json_object_set_new(obj, "value_of_evidence",
-                        json_real(rule->prior_only_risk - rule->bayes_risk));
+                        lop_json_number(rule->prior_only_risk - rule->bayes_risk));
     json_object_set_new(obj, "exact", json_boolean(rule->exact));
     if (!rule->exact)
-        json_object_set_new(obj, "coverage", json_real(rule->coverage));
+        json_object_set_new(obj, "coverage", lop_json_number(rule->coverage));
     json_t *switches = json_array();
     for (size_t k = 0; k < rule->n_switches; k++) {
         const lop_switch_point *sp = &rule->switches[k];
         json_t *s = json_object();
-        json_object_set_new(s, "x", json_real(sp->x));
+        json_object_set_new(s, "x", lop_json_number(sp->x));
         json_object_set_new(s, "from", json_string(p->actions[sp->from]));
         json_object_set_new(s, "to", json_string(p->actions[sp->to]));
         if (rule->n_columns)
@@ -193,10 +198,10 @@ static json_t *rule_json(const lop_problem *p, const lop_results *r)
         for (size_t row = 0; row < rule->n_rows; row++) {
             json_t *t = json_object();
             json_object_set_new(t, "outcomes", row_outcomes(p, rule, row));
-            json_object_set_new(t, "probability", json_real(rule->row_probability[row]));
+            json_object_set_new(t, "probability", lop_json_number(rule->row_probability[row]));
             if (rule->numeric_channel < 0) {
                 json_object_set_new(t, "action", json_string(p->actions[rule->row_action[row]]));
-                set_score(t, p, "expected_loss", "expected_payoff", rule->row_expected_loss[row]);
+                lop_json_score(t, p, "expected_loss", "expected_payoff", rule->row_expected_loss[row]);
             }
             json_array_append_new(table, t);
         }
@@ -240,8 +245,8 @@ static json_t *rules_json(const lop_problem *p, const lop_results *r)
         json_object_set_new(obj, "kind", json_string(lop_rule_kind_name(p->rules[k].kind)));
         json_object_set_new(obj, "computed", json_boolean(c->computed));
         if (c->computed) {
-            set_score(obj, p, "risk", "payoff", c->risk);
-            json_object_set_new(obj, "regret", json_real(c->regret));
+            lop_json_score(obj, p, "risk", "payoff", c->risk);
+            json_object_set_new(obj, "regret", lop_json_number(c->regret));
         } else {
             json_object_set_new(obj, "not_computed", json_string(c->not_computed_why
                                                                      ? c->not_computed_why
@@ -263,7 +268,7 @@ static json_t *choices_json(const lop_problem *p, const lop_simulated_rule *m, b
         for (size_t s = 0; s < R; s++) {
             size_t n = m->choices[a * R + s];
             json_t *v = !rates                  ? json_integer((json_int_t)n)
-                        : m->state_trials[s] > 0 ? json_real((double)n / (double)m->state_trials[s])
+                        : m->state_trials[s] > 0 ? lop_json_number((double)n / (double)m->state_trials[s])
                                                  : json_null();
             if (row)
                 json_object_set_new(row, p->state_labels[s], v);
@@ -290,40 +295,40 @@ static json_t *simulation_json(const lop_problem *p, const lop_results *r)
     json_object_set_new(obj, "trials", json_integer((json_int_t)sim->trials));
     json_object_set_new(obj, "seed", json_integer((json_int_t)sim->seed));
     if (sim->floor_given)
-        json_object_set_new(obj, "floor", json_real(sim->floor));
+        json_object_set_new(obj, "floor", lop_json_number(sim->floor));
     json_object_set_new(obj, "outside_grid", json_integer((json_int_t)sim->outside_grid));
     json_object_set_new(obj, "threads", json_integer(sim->threads));
-    json_object_set_new(obj, "seconds", json_real(sim->seconds));
+    json_object_set_new(obj, "seconds", lop_json_number(sim->seconds));
     double n = (double)sim->sessions * (double)sim->trials;
     json_object_set_new(obj, "trials_per_second",
-                        sim->seconds > 0 ? json_real(n / sim->seconds) : json_null());
+                        sim->seconds > 0 ? lop_json_number(n / sim->seconds) : json_null());
     json_t *rules = json_array();
     for (size_t i = 0; i < sim->n_rules; i++) {
         const lop_simulated_rule *m = &sim->rules[i];
         json_t *o = json_object();
         json_object_set_new(o, "rule", json_string(m->name));
         json_object_set_new(o, "simulated", json_boolean(m->simulated));
-        json_object_set_new(o, "analytic", m->has_analytic ? json_real(m->analytic) : json_null());
+        json_object_set_new(o, "analytic", m->has_analytic ? lop_json_number(m->analytic) : json_null());
         if (!m->simulated) {
             json_object_set_new(o, "not_simulated", json_string(m->not_simulated_why));
             json_array_append_new(rules, o);
             continue;
         }
-        json_object_set_new(o, "mean_per_trial", json_real(m->mean_per_trial));
-        json_object_set_new(o, "sd_per_trial", json_real(m->sd_per_trial));
+        json_object_set_new(o, "mean_per_trial", lop_json_number(m->mean_per_trial));
+        json_object_set_new(o, "sd_per_trial", lop_json_number(m->sd_per_trial));
         json_object_set_new(o, "ci95", pair_json(m->ci95));
-        json_object_set_new(o, "mean_per_session", json_real(m->mean_per_session));
+        json_object_set_new(o, "mean_per_session", lop_json_number(m->mean_per_session));
         json_object_set_new(o, "session_ci95", pair_json(m->session_ci95));
         json_t *pct = json_object();
-        json_object_set_new(pct, "p05", json_real(m->p05));
-        json_object_set_new(pct, "p50", json_real(m->p50));
-        json_object_set_new(pct, "p95", json_real(m->p95));
+        json_object_set_new(pct, "p05", lop_json_number(m->p05));
+        json_object_set_new(pct, "p50", lop_json_number(m->p50));
+        json_object_set_new(pct, "p95", lop_json_number(m->p95));
         json_object_set_new(o, "session_percentiles", pct);
         if (sim->floor_given)
-            json_object_set_new(o, "below_floor", json_real(m->below_floor));
+            json_object_set_new(o, "below_floor", lop_json_number(m->below_floor));
         if (p->estimate) {
-            json_object_set_new(o, "mean_error", json_real(m->mean_error));
-            json_object_set_new(o, "mean_absolute_error", json_real(m->mean_absolute_error));
+            json_object_set_new(o, "mean_error", lop_json_number(m->mean_error));
+            json_object_set_new(o, "mean_absolute_error", lop_json_number(m->mean_absolute_error));
         } else {
             json_object_set_new(o, "rates", choices_json(p, m, true));
             json_object_set_new(o, "counts", choices_json(p, m, false));
@@ -372,8 +377,8 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     if (r->simulation.run)
         json_object_set_new(root, "simulation", simulation_json(p, r));
     json_t *timing = json_object();
-    json_object_set_new(timing, "case_seconds", json_real(r->seconds_case));
-    json_object_set_new(timing, "rule_seconds", json_real(r->seconds_rule));
+    json_object_set_new(timing, "case_seconds", lop_json_number(r->seconds_case));
+    json_object_set_new(timing, "rule_seconds", lop_json_number(r->seconds_rule));
     json_object_set_new(root, "timing", timing);
     json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));
 

@@ -6,20 +6,6 @@
 #include "lopside/report.h"
 #include "report_studies.h"
 
-/* A number, or null when it is not finite (JSON has no infinities). */
-static json_t *number(double v)
-{
-    return isfinite(v) ? json_real(v) : json_null();
-}
-
-/* `key` (a loss) and, for payoff problems, `payoff_key` with the sign flipped. */
-static void put_score(json_t *obj, const lop_problem *p, const char *key, const char *payoff_key,
-                      double loss)
-{
-    json_object_set_new(obj, key, number(loss));
-    if (p->payoff)
-        json_object_set_new(obj, payoff_key, number(-loss));
-}
 
 static const char *channel_name(const lop_problem *p, size_t i)
 {
@@ -31,14 +17,14 @@ static json_t *flatness_json(const lop_problem *p, const lop_flatness *f)
     if (!f->computed)
         return json_null();
     json_t *obj = json_object();
-    json_object_set_new(obj, "at", number(f->at));
-    put_score(obj, p, "expected_loss", "expected_payoff", f->optimum);
+    json_object_set_new(obj, "at", lop_json_number(f->at));
+    lop_json_score(obj, p, "expected_loss", "expected_payoff", f->optimum);
     json_t *ranges = json_array();
     for (size_t k = 0; k < LOP_FLAT_LEVELS; k++) {
         json_t *r = json_object();
         json_object_set_new(r, "within", json_real(f->range[k].within));
-        json_object_set_new(r, "from", number(f->range[k].from));
-        json_object_set_new(r, "to", number(f->range[k].to));
+        json_object_set_new(r, "from", lop_json_number(f->range[k].from));
+        json_object_set_new(r, "to", lop_json_number(f->range[k].to));
         json_array_append_new(ranges, r);
     }
     json_object_set_new(obj, "ranges", ranges);
@@ -54,7 +40,7 @@ static json_t *value_json(const lop_problem *p, const lop_results *r)
     json_object_set_new(obj, "computed", json_boolean(v->computed));
     if (!v->computed)
         json_object_set_new(obj, "not_computed", json_string(v->not_computed_why));
-    json_object_set_new(obj, "evpi", v->computed ? number(v->evpi) : json_null());
+    json_object_set_new(obj, "evpi", v->computed ? lop_json_number(v->evpi) : json_null());
     json_object_set_new(obj, "cost", json_real(p->value.cost));
     json_object_set_new(obj, "up_to", json_integer((json_int_t)p->value.up_to));
     json_t *extra = json_array();
@@ -63,8 +49,8 @@ static json_t *value_json(const lop_problem *p, const lop_results *r)
         json_t *e = json_object();
         json_object_set_new(e, "channel", json_string(channel_name(p, x->channel)));
         json_object_set_new(e, "n", json_integer((json_int_t)x->n));
-        json_object_set_new(e, "evsi", x->computed ? number(x->evsi) : json_null());
-        json_object_set_new(e, "net", x->computed ? number(x->net) : json_null());
+        json_object_set_new(e, "evsi", x->computed ? lop_json_number(x->evsi) : json_null());
+        json_object_set_new(e, "net", x->computed ? lop_json_number(x->net) : json_null());
         if (!x->computed)
             json_object_set_new(e, "not_computed", json_string(x->not_computed_why));
         if (x->on_the_mean)
@@ -85,7 +71,7 @@ static json_t *value_json(const lop_problem *p, const lop_results *r)
         const lop_value_next *n = &v->next[i];
         json_t *e = json_object();
         json_object_set_new(e, "channel", json_string(channel_name(p, n->channel)));
-        json_object_set_new(e, "value", n->computed ? number(n->value) : json_null());
+        json_object_set_new(e, "value", n->computed ? lop_json_number(n->value) : json_null());
         if (!n->computed)
             json_object_set_new(e, "not_computed", json_string(n->not_computed_why));
         json_array_append_new(next, e);
@@ -138,8 +124,8 @@ static json_t *path_point_json(const lop_problem *p, const lop_sweep_result *w,
     if (w->spec->y)
         json_object_set_new(obj, "y", json_real(pt->y));
     json_object_set_new(obj, "computed", json_boolean(pt->computed));
-    put_score(obj, p, "bayes_risk", "bayes_payoff", pt->computed ? pt->bayes_risk : NAN);
-    json_object_set_new(obj, "evpi", pt->computed ? number(pt->evpi) : json_null());
+    lop_json_score(obj, p, "bayes_risk", "bayes_payoff", pt->computed ? pt->bayes_risk : NAN);
+    json_object_set_new(obj, "evpi", pt->computed ? lop_json_number(pt->evpi) : json_null());
     if (p->estimate) {
         json_object_set_new(obj, "case_action", json_real(pt->case_estimate));
         json_object_set_new(obj, "rates", json_null());
@@ -160,15 +146,15 @@ static json_t *threshold_point_json(const lop_problem *p, const lop_sweep_result
     if (w->spec->y)
         json_object_set_new(obj, "y", json_real(pt->y));
     json_object_set_new(obj, "rates", rates_json(p, w, pt->rates, 2));
-    put_score(obj, p, "expected_loss", "expected_payoff", pt->expected_loss);
+    lop_json_score(obj, p, "expected_loss", "expected_payoff", pt->expected_loss);
     if (p->states_kind == LOP_STATES_LABELS && p->n_states == 2) {
         /* The second state is the signal, the second action the "yes". */
         json_object_set_new(obj, "hit_rate", json_real(pt->rates[p->n_states + 1]));
         json_object_set_new(obj, "false_alarm_rate", json_real(pt->rates[p->n_states]));
     }
     if (row->sdt) {
-        json_object_set_new(obj, "c", number(pt->criterion));
-        json_object_set_new(obj, "beta", number(pt->beta));
+        json_object_set_new(obj, "c", lop_json_number(pt->criterion));
+        json_object_set_new(obj, "beta", lop_json_number(pt->beta));
     }
     return obj;
 }
@@ -179,9 +165,9 @@ static void threshold_row_json(json_t *obj, const lop_problem *p, const lop_thre
     json_object_set_new(obj, "bayes_threshold",
                         row->has_bayes_threshold ? json_real(row->bayes_threshold)
                                                  : json_null());
-    put_score(obj, p, "bayes_threshold_expected_loss", "bayes_threshold_expected_payoff",
+    lop_json_score(obj, p, "bayes_threshold_expected_loss", "bayes_threshold_expected_payoff",
               row->bayes_threshold_loss);
-    put_score(obj, p, "bayes_risk", "bayes_payoff", row->bayes_risk);
+    lop_json_score(obj, p, "bayes_risk", "bayes_payoff", row->bayes_risk);
     json_object_set_new(obj, "flatness", row->has_bayes_threshold
                                              ? flatness_json(p, &row->flatness)
                                              : json_null());
@@ -261,7 +247,7 @@ static json_t *design_json(const lop_problem *p, const lop_design_result *d)
     json_object_set_new(obj, "reached", json_boolean(d->reached));
     json_object_set_new(obj, "value", d->reached ? json_real(d->value) : json_null());
     if (d->reached && !action)
-        json_object_set_new(obj, "achieved", number(d->achieved));
+        json_object_set_new(obj, "achieved", lop_json_number(d->achieved));
     if (!d->reached && action) {
         json_t *seen = json_array();
         for (size_t i = 0; i < d->n_seen; i++)
@@ -269,8 +255,8 @@ static json_t *design_json(const lop_problem *p, const lop_design_result *d)
         json_object_set_new(obj, "range", seen);
     } else if (!d->reached) {
         json_t *range = json_array();
-        json_array_append_new(range, number(d->range_lo));
-        json_array_append_new(range, number(d->range_hi));
+        json_array_append_new(range, lop_json_number(d->range_lo));
+        json_array_append_new(range, lop_json_number(d->range_hi));
         json_object_set_new(obj, "range", range);
     }
     if (d->note)

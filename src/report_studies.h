@@ -9,6 +9,13 @@
 #include "lopside/problem.h"
 #include "lopside/results.h"
 
+/* Returns a JSON number, or null when v is not finite (JSON has no infinities). */
+json_t *lop_json_number(double v);
+
+/* Sets `key` to a loss and, for payoff problems, `payoff_key` to the payoff (its negation). */
+void lop_json_score(json_t *obj, const lop_problem *p, const char *key, const char *payoff_key,
+                    double loss);
+
 /* Adds `value`, `sweeps` and `designs` to root, and `flatness` to root's `case` for
  * estimates (format.md's keys). */
 void lop_report_json_studies(json_t *root, const lop_problem *p, const lop_results *r);

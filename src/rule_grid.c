@@ -19,9 +19,15 @@
 #define PRIOR_TAIL_MASS 1e-7
 #define NOISE_TAIL_MASS 0.9e-6
 #define COUNT_POINTS_MAX 1000000
-/* Posterior weights below e^-50 of the largest change no decision or expected loss by
- * more than 2e-22 times the number of states, relative: the rule skips their exp. */
+/* With a bounded loss, posterior weights below e^-50 of the largest change no decision
+ * or expected loss by more than 2e-22 times the number of states, relative: the rule
+ * skips their exp. Unbounded losses (LINEX grows exponentially) keep every weight. */
 #define NEGLIGIBLE_LOG_WEIGHT (-50.0)
+/* An automatic grid of a continuous measurement gets cells no wider than this share of
+ * the narrowest measurement sd, so the midpoint rule's error, of order the squared
+ * ratio, stays small; but no more points than the cap. */
+#define CELLS_PER_SD 4.0
+#define AUTO_POINTS_MAX 20001
 /* Below this predictive mass on the grid, the risk misses a part worth a warning. */
 #define COVERAGE_WARN 1e-3
 
@@ -122,7 +128,15 @@ static double posterior_at(const lop_evidence_kernel *kern, const double *logpri
                            double *logw, double *post)
 {
     lop_evidence_kernel_eval(kern, x, logprior, logw);
-    return lop_posterior_normalize_above(logw, kern->n_states, NEGLIGIBLE_LOG_WEIGHT, post);
+    return lop_posterior_normalize_above(logw, kern->n_states, kern->negligible, post);
+}
+
+/* The log weight below which posterior terms may be dropped for p's loss. */
+static double negligible_for(const lop_problem *p)
+{
+    bool bounded = !p->estimate || p->curve.kind == LOP_CURVE_TOLERANCE ||
+                   p->curve.kind == LOP_CURVE_POINTS;
+    return bounded ? NEGLIGIBLE_LOG_WEIGHT : -INFINITY;
 }
 
 /* Expected loss of estimate e under post, by the direct sum (any estimate, any curve). */
@@ -251,6 +265,20 @@ static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_resul
             hi = lo + 1;
     }
     rule->n_grid = rule->count_grid ? (size_t)(hi - lo) + 1 : c->grid_points;
+    if (!rule->count_grid && !c->grid_points_given) {
+        double narrowest = INFINITY;
+        for (size_t s = 0; s < p->n_states; s++) {
+            if (p->prior[s] == 0)
+                continue;
+            double sd = c->spread[s] / sqrt((double)c->repeats);
+            if (c->noise == LOP_NOISE_LOGNORMAL) /* the density's width near its center */
+                sd *= c->center[s];
+            narrowest = fmin(narrowest, sd);
+        }
+        double want = ceil(CELLS_PER_SD * (hi - lo) / narrowest) + 1;
+        if (want > (double)rule->n_grid)
+            rule->n_grid = want < AUTO_POINTS_MAX ? (size_t)want : AUTO_POINTS_MAX;
+    }
     if (rule->count_grid && rule->n_grid > COUNT_POINTS_MAX)
         return -2;
     rule->grid = malloc(rule->n_grid * sizeof *rule->grid);
@@ -356,6 +384,7 @@ static lop_status prepare_rules(grid_job *job, lop_results *r, lop_error *err)
                 lop_evidence_kernel_init(&job->believed[k].kern, job->believed[k].c,
                                          bp->n_states, job->believed[k].c->repeats) != 0)
                 return lop_error_run(err, "out of memory");
+            job->believed[k].kern.negligible = negligible_for(bp);
         }
         cr->grid_decision = malloc(r->rule.n_grid * sizeof *cr->grid_decision);
         job->rule_loss[k] = malloc(r->rule.n_grid * sizeof **job->rule_loss);
@@ -386,6 +415,7 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
         st = lop_error_run(err, "out of memory");
         goto done;
     }
+    job.kern.negligible = negligible_for(p);
     int grid = build_grid(p, job.c, rule);
     if (grid == -2) {
         st = lop_rule_not_computed(r, err, "the counts span more than a million values; "
@@ -457,9 +487,10 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
     rule->computed = true;
     if (fabs(rule->coverage - 1) > COVERAGE_WARN &&
         lop_results_warn(r, "[%s]: the measurement grid holds %.4g of the predictive "
-                            "probability, so the Bayes risk leaves out %.2g of it; widen "
-                            "grid_from and grid_to",
-                         job.c->section, rule->coverage, 1 - rule->coverage) != 0)
+                            "probability where it should hold 1, so the Bayes risk is off by "
+                            "about that share: the grid is too coarse for the noise (raise "
+                            "grid_points) or too narrow (widen grid_from and grid_to)",
+                         job.c->section, rule->coverage) != 0)
         st = lop_error_run(err, "out of memory");
 done:
     for (size_t k = 0; job.believed && k < p->n_rules; k++) {

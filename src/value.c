@@ -194,9 +194,11 @@ lop_status lop_value_solve(const lop_problem *p, lop_results *r, const lop_progr
         if (price_channel(p, r, spec->channels[k], &v->extra[k * spec->up_to], progress, &done,
                           v->n_extra, err) != LOP_OK)
             return err->status;
+    /* A net value within rounding of 0 buys nothing. */
+    double worth = ROUNDING_RELATIVE * loss_scale(p);
     for (size_t i = 0; i < v->n_extra; i++) {
         const lop_value_extra *x = &v->extra[i];
-        if (x->computed && x->net > 0 && (!v->has_best || x->net > v->best_net)) {
+        if (x->computed && x->net > worth && (!v->has_best || x->net > v->best_net)) {
             v->has_best = true;
             v->best_channel = x->channel;
             v->best_n = x->n;

@@ -37,6 +37,7 @@ typedef struct {
     const lop_channel *c;
     size_t n_states, repeats;
     double *a, *b, *k;   /* per state; meaning depends on the noise (see evidence.c) */
+    double negligible;   /* log weight below which a posterior term may be dropped */
 } lop_evidence_kernel;
 
 /* Returns 0 after filling kern for channel c (n repeats), -1 when memory runs out. */

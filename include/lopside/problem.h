@@ -49,6 +49,7 @@ typedef struct {
     bool grid_given;         /* grid_from/grid_to were in the file */
     double grid_from, grid_to;
     size_t grid_points;
+    bool grid_points_given;  /* grid_points was in the file (else lopside may refine it) */
 
     /* the case at hand: 0 or `repeats` observations */
     size_t n_observed;

@@ -100,9 +100,19 @@ static char *read_line(char *str, int num, void *stream)
     char *body = str + lead;
     if (*body == '[') {
         st->after_key = false;
-        if (!strchr(body, ']')) {
+        const char *close = strchr(body, ']');
+        if (!close) {
             lop_error_input(st->err, st->cfg->path, st->line, NULL, NULL,
                             "a [section] header needs its closing `]`");
+            return NULL;
+        }
+        const char *rest = close + 1;
+        while (*rest == ' ' || *rest == '\t')
+            rest++;
+        if (*rest && *rest != ';' && *rest != '#') {
+            lop_error_input(st->err, st->cfg->path, st->line, NULL, NULL,
+                            "text after a [section] header; put `%s` on a line of its own",
+                            rest);
             return NULL;
         }
         return record_section(st, body) ? strcat(str, "\n") : NULL;

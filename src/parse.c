@@ -28,7 +28,8 @@ static bool read_double(const char *text, bool allow_inf, double *out)
     char *end = NULL;
     errno = 0;
     double v = strtod(text, &end);
-    if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
+    /* Underflow (1e-400) reads as the nearest double; overflow is an error. */
+    if (end == text || *end != '\0' || !isfinite(v) || (errno == ERANGE && fabs(v) > 1))
         return false;
     *out = v;
     return true;

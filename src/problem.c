@@ -209,6 +209,13 @@ static lop_status build_grid_states(builder *b)
     if (!(to > from))
         return pb_error(b, pb_find(b, "states", "to")->line, "states", "to",
                         "`to` (%g) must be above `from` (%g)", to, from);
+    if (!isfinite(to - from))
+        return pb_error(b, pb_find(b, "states", "to")->line, "states", "to",
+                        "the range from %g to %g is too wide to divide into cells", from, to);
+    const lop_entry *max_entry = pb_find(b, "states", "max_points");
+    if (max_entry && (limit < 2 || limit != floor(limit)))
+        return pb_error(b, max_entry->line, "states", "max_points",
+                        "expected a whole number of at least 2, found `%s`", max_entry->value);
     if (points && step)
         return pb_error(b, step->line, "states", "step",
                         "give points or step, not both (points on line %d)", points->line);
@@ -305,6 +312,12 @@ static lop_status build_states(builder *b)
                 return pb_error(b, values->line, "states", "values",
                                 "duplicate value %s (entries %zu and %zu)",
                                 p->state_labels[i], j + 1, i + 1);
+    /* Quantiles, estimates and switch points read the states in order. */
+    for (size_t i = 1; i < p->n_states; i++)
+        if (p->state_values[i] < p->state_values[i - 1])
+            return pb_error(b, values->line, "states", "values",
+                            "values must increase: entry %zu (%s) comes after %s", i + 1,
+                            p->state_labels[i], p->state_labels[i - 1]);
     return LOP_OK;
 }
 

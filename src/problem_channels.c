@@ -269,8 +269,9 @@ static lop_status check_centers(builder *b, const lop_channel *c)
         else if (!(c->spread[s] > 0) && c->noise != LOP_NOISE_POISSON &&
                  c->noise != LOP_NOISE_BINOMIAL)
             return pb_error(b, noise->line, c->section, "noise",
-                            "the measurement's spread at state %s is %g: it must be > 0",
-                            p->state_labels ? p->state_labels[s] : "", c->spread[s]);
+                            "the measurement's sd at state %g is %g: it must be > 0 (with "
+                            "scalar noise, give sd_floor > 0 for states where r(s) <= 0)",
+                            x, c->spread[s]);
         if (wrong) {
             char where[64];
             if (p->state_labels)
@@ -284,6 +285,27 @@ static lop_status check_centers(builder *b, const lop_channel *c)
                             "the response at state %s is %g, which %s `%s` noise", where, r,
                             wrong, noise->value);
         }
+    }
+    return LOP_OK;
+}
+
+/* Counts go to GSL as unsigned ints: every count the channel can produce must fit. */
+static lop_status check_count_range(builder *b, const lop_channel *c)
+{
+    const double most = 4294967295.0;
+    if (c->noise == LOP_NOISE_BINOMIAL && (double)c->repeats * (double)c->trials > most)
+        return pb_error(b, pb_find(b, c->section, "trials")->line, c->section, "trials",
+                        "repeats x trials is %.0f successes at most; the limit is %.0f",
+                        (double)c->repeats * (double)c->trials, most);
+    if (c->noise != LOP_NOISE_POISSON)
+        return LOP_OK;
+    for (size_t s = 0; s < b->p->n_states; s++) {
+        double mu = (double)c->repeats * c->window * c->center[s];
+        if (mu + 50 * sqrt(mu + 1) + 50 > most)
+            return pb_error(b, pb_find(b, c->section, "noise")->line, c->section, "noise",
+                            "the expected count %g at some state is too large: counts up to "
+                            "%.0f are supported",
+                            mu, most);
     }
     return LOP_OK;
 }
@@ -385,6 +407,8 @@ static lop_status build_noise_channel(builder *b, lop_channel *c)
     }
     }
     if (check_centers(b, c) != LOP_OK)
+        return LOP_EINPUT;
+    if (check_count_range(b, c) != LOP_OK)
         return LOP_EINPUT;
     if (c->repeats > 1 && !spec->summarizable)
         return pb_error(b, pb_find(b, c->section, "repeats")->line, c->section, "repeats",

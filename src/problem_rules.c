@@ -63,9 +63,9 @@ static lop_status build_believed(builder *b, const char *section, lop_rule_spec 
     lop_config_free(copy);
     if (!r->believed) {
         /* The believed problem's own complaint, placed at the rule that made it. */
-        return pb_error(b, r->line, section, NULL, "the believed problem is invalid: %s%s%s",
-                        inner.section[0] ? inner.section : "", inner.section[0] ? " " : "",
-                        inner.message);
+        return pb_error(b, inner.line ? inner.line : r->line, section, NULL,
+                        "the believed problem is invalid: [%s] %s: %s", inner.section,
+                        inner.key, inner.message);
     }
     const lop_problem *p = b->p, *bp = r->believed;
     bool same = bp->estimate == p->estimate && bp->n_actions == p->n_actions;

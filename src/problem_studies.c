@@ -70,6 +70,17 @@ static lop_status take_path(builder *b, const char *section, const char *key, bo
         return pb_no_memory(b);
     if (special_ok && strcmp(e->value, "rule.threshold") == 0)
         return LOP_OK;
+    /* Studies re-build the model: a path into another study or an output changes
+     * nothing that is solved. */
+    static const char *const not_model[] = {"value.", "sweep.", "design.", "simulate.",
+                                            "output.", "rule."};
+    for (size_t i = 0; i < sizeof not_model / sizeof *not_model; i++)
+        if (strncmp(e->value, not_model[i], strlen(not_model[i])) == 0)
+            return pb_error(b, e->line, section, key,
+                            "`%s` is not part of the model that is re-solved; vary a number "
+                            "of [prior], [evidence], [loss] or [payoff], [states] or "
+                            "[actions]",
+                            e->value);
     return check_path(b, section, e);
 }
 
@@ -246,12 +257,14 @@ static lop_status check_design_bracket(builder *b, const lop_design_spec *d)
     lop_study_site site = {section, "vary", d->vary_line};
     const char *paths[1] = {d->vary};
     lop_status st = LOP_OK;
-    for (int end = 0; end < 2 && st == LOP_OK; end++) {
-        double v = end ? d->to : d->from;
-        lop_problem *model = lop_study_model_at(scratch, paths, &v, 1,
-                                                end ? "the bracket's `to`"
-                                                    : "the bracket's `from`",
-                                                &site, b->err);
+    /* A point inside the bracket too: a key that takes whole numbers (repeats, points)
+     * cannot be varied continuously, and should fail here rather than mid-search. */
+    static const char *const where[] = {"the bracket's `from`", "the bracket's `to`",
+                                        "a value inside the bracket"};
+    for (int k = 0; k < 3 && st == LOP_OK; k++) {
+        double v = k == 0 ? d->from : k == 1 ? d->to : d->from + 0.4142 * (d->to - d->from);
+        lop_problem *model = lop_study_model_at(scratch, paths, &v, 1, where[k], &site,
+                                                b->err);
         if (!model)
             st = b->err->status;
         lop_problem_free(model);

@@ -74,6 +74,12 @@ char *lop_read_whole_file(const char *path, size_t *len)
         used += fread(buf + used, 1, cap - used - 1, f);
         if (used < cap - 1)
             break;
+        if (cap >= LOP_FILE_MAX) { /* a problem file is text, not a device or a dump */
+            free(buf);
+            buf = NULL;
+            errno = EFBIG;
+            break;
+        }
         char *grown = realloc(buf, cap * 2);
         if (!grown) {
             free(buf);

@@ -210,6 +210,7 @@ static lop_status sweep_paths(const lop_problem *p, lop_sweep_result *w, const c
 #pragma omp critical(lop_sweep_report)
             {
                 if (st != LOP_OK && k < failed_at) {
+#pragma omp atomic write
                     failed_at = k;
                     first = local;
                 }

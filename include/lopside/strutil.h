@@ -14,6 +14,9 @@ char *lop_strndup_trim(const char *s, size_t n);
 /* Returns true when the n bytes at s are well-formed UTF-8. */
 bool lop_utf8_valid(const char *s, size_t n);
 
+/* Largest file read whole (bytes): far above any problem file. */
+#define LOP_FILE_MAX ((size_t)64 << 20)
+
 /* Returns the malloc'ed contents of path (NUL-terminated, length in *len), or NULL with errno set. */
 char *lop_read_whole_file(const char *path, size_t *len);
 

@@ -100,10 +100,6 @@ static lop_status check_sections(builder *b)
                             near ? "; did you mean [" : "", near ? near : "",
                             near ? "]?" : "");
         }
-        if (!spec->supported)
-            return pb_error(b, s->line, s->name, NULL,
-                            "this section is part of the format but not supported by this "
-                            "version of lopside yet");
         if (name[0] && !spec->named)
             return pb_error(b, s->line, s->name, NULL,
                             "[%s] takes no name after a dot; write [%s]", kind, kind);
@@ -148,10 +144,6 @@ static lop_status check_keys(builder *b)
                             near ? "; did you mean `" : "", near ? near : "",
                             near ? "`?" : "");
         }
-        if (!spec->supported)
-            return pb_error(b, e->line, e->section, e->key,
-                            "this key is part of the format but not supported by this "
-                            "version of lopside yet");
     }
     return LOP_OK;
 }

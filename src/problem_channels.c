@@ -528,8 +528,11 @@ lop_status pb_build_channels(builder *b)
     p->channels = calloc(n, sizeof *p->channels);
     if (!p->channels)
         return pb_no_memory(b);
-    double combinations = 1;
-    const lop_entry *largest_repeats = NULL;
+    /* The rule table holds every combination of count vectors, each with a count per
+     * outcome: bound both the rows and the cells. */
+    double combinations = 1, columns = 0;
+    const lop_entry *blame = NULL; /* the repeats of the table channel with the most */
+    size_t most_repeats = 0;
     for (size_t i = 0; i < b->cfg->n_sections; i++) {
         const lop_section *s = &b->cfg->sections[i];
         if (!is_evidence_section(s->name))
@@ -559,17 +562,22 @@ lop_status pb_build_channels(builder *b)
             return b->err->status;
         if (c->kind == LOP_CHANNEL_TABLE) {
             combinations *= count_vectors(c->repeats, c->n_outcomes);
-            if (rep && (!largest_repeats || c->repeats > 1))
-                largest_repeats = rep;
+            columns += (double)c->n_outcomes;
+            if (rep && c->repeats > most_repeats) {
+                most_repeats = c->repeats;
+                blame = rep;
+            }
         }
     }
-    if (combinations > LOP_RULE_COMBINATIONS_MAX) {
-        int line = largest_repeats ? largest_repeats->line : p->channels[0].line;
-        return pb_error(b, line, largest_repeats ? largest_repeats->section : NULL,
-                        largest_repeats ? "repeats" : NULL,
-                        "the rule table would hold %.0f outcome combinations, above the "
-                        "limit of %d: use fewer repeats or outcomes",
-                        combinations, LOP_RULE_COMBINATIONS_MAX);
+    if (combinations > LOP_RULE_COMBINATIONS_MAX ||
+        combinations * (columns + (double)p->n_states) > LOP_RULE_CELLS_LIMIT) {
+        int line = blame ? blame->line : p->channels[0].line;
+        return pb_error(b, line, blame ? blame->section : NULL, blame ? "repeats" : NULL,
+                        "the rule table would hold %.0f outcome combinations of %.0f counts "
+                        "each, above the limit of %d combinations or %.0f counts in all: use "
+                        "fewer repeats or outcomes",
+                        combinations, columns, LOP_RULE_COMBINATIONS_MAX,
+                        (double)LOP_RULE_CELLS_LIMIT);
     }
     return check_observations_possible(b);
 }

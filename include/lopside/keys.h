@@ -9,7 +9,6 @@
 typedef struct {
     const char *kind;     /* section kind: "problem", "evidence", ... */
     const char *key;      /* a trailing ".*" matches any name after the dot */
-    bool supported;       /* false: part of the format, not handled by this version */
     const char *help;
 } lop_key_spec;
 
@@ -17,7 +16,6 @@ typedef struct {
     const char *kind;
     bool named;           /* [kind.NAME] allowed */
     bool name_required;   /* only [kind.NAME] */
-    bool supported;
     const char *help;
 } lop_section_spec;
 

@@ -10,8 +10,10 @@
 #include "lopside/curve.h"
 #include "lopside/error.h"
 
-/* Most outcome combinations a rule table may hold (all channels, all repeats). */
+/* Most outcome combinations a rule table may hold (all channels, all repeats), and most
+ * numbers in it (combinations x (outcome counts + states)): about 160 MB. */
 #define LOP_RULE_COMBINATIONS_MAX 1000000
+#define LOP_RULE_CELLS_LIMIT 20000000
 /* Most cells of a state grid unless the file raises it with [states] max_points. */
 #define LOP_GRID_POINTS_LIMIT 1000000
 

@@ -15,6 +15,7 @@
 #include <gsl/gsl_sf_exp.h>
 
 #include "lopside/curve.h"
+#include "lopside/interp.h"
 
 /* Cumulative weights within this fraction of the total count as equal when the minimum
  * of an absolute or linlin loss may be flat, and expected losses within this fraction of
@@ -70,21 +71,7 @@ static double phi(double u)
 /* Returns the loss of the points curve at e: linear between knots, flat outside. */
 static double points_loss(const lop_curve *c, double e)
 {
-    size_t n = c->n_points;
-    if (e <= c->error[0])
-        return c->value[0];
-    if (e >= c->error[n - 1])
-        return c->value[n - 1];
-    size_t lo = 0, hi = n - 1;      /* error[lo] < e < error[hi] */
-    while (hi - lo > 1) {
-        size_t mid = lo + (hi - lo) / 2;
-        if (c->error[mid] <= e)
-            lo = mid;
-        else
-            hi = mid;
-    }
-    double t = (e - c->error[lo]) / (c->error[hi] - c->error[lo]);
-    return c->value[lo] + t * (c->value[hi] - c->value[lo]);
+    return lop_interp_linear(c->error, c->value, c->n_points, e);
 }
 
 double lop_curve_error_loss(const lop_curve *c, double e)

@@ -5,6 +5,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "lopside/interp.h"
 #include "lopside/keys.h"
 #include "problem_build.h"
 
@@ -111,23 +112,6 @@ static lop_status read_increasing(builder *b, const char *section, const char *k
     return LOP_OK;
 }
 
-/* Linear between knots, flat outside (format.md's `at` lines and `points` curves). */
-static double piecewise(const double *x, const double *y, size_t n, double at)
-{
-    if (at <= x[0])
-        return y[0];
-    if (at >= x[n - 1])
-        return y[n - 1];
-    size_t lo = 0, hi = n - 1;
-    while (hi - lo > 1) {
-        size_t mid = (lo + hi) / 2;
-        if (x[mid] <= at)
-            lo = mid;
-        else
-            hi = mid;
-    }
-    return y[lo] + (y[hi] - y[lo]) * (at - x[lo]) / (x[hi] - x[lo]);
-}
 
 static lop_status build_choice_scores(builder *b, const char *section)
 {
@@ -183,7 +167,7 @@ static lop_status build_choice_scores(builder *b, const char *section)
                     band++;
                 v = row[band];
             } else {
-                v = piecewise(knots, row, n_knots, x);
+                v = lop_interp_linear(knots, row, n_knots, x);
             }
             p->loss[a * p->n_states + s] = sign * v;
         }

@@ -2,6 +2,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "lopside/interp.h"
 #include "lopside/parse.h"
 #include "lopside/response.h"
 #include "lopside/strutil.h"
@@ -152,22 +153,8 @@ double lop_response_eval(const lop_response *r, double s)
     }
     case LOP_RESPONSE_LOGISTIC:
         return r->low + (r->high - r->low) / (1 + exp(-(s - r->mid) / r->width));
-    case LOP_RESPONSE_TABLE: {
-        if (s <= r->at[0])
-            return r->value[0];
-        if (s >= r->at[r->n_points - 1])
-            return r->value[r->n_points - 1];
-        size_t lo = 0, hi = r->n_points - 1;
-        while (hi - lo > 1) {
-            size_t mid = (lo + hi) / 2;
-            if (r->at[mid] <= s)
-                lo = mid;
-            else
-                hi = mid;
-        }
-        double t = (s - r->at[lo]) / (r->at[hi] - r->at[lo]);
-        return r->value[lo] + t * (r->value[hi] - r->value[lo]);
-    }
+    case LOP_RESPONSE_TABLE:
+        return lop_interp_linear(r->at, r->value, r->n_points, s);
     }
     return NAN;
 }

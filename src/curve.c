@@ -74,7 +74,8 @@ static double points_loss(const lop_curve *c, double e)
     return lop_interp_linear(c->error, c->value, c->n_points, e);
 }
 
-double lop_curve_error_loss(const lop_curve *c, double e)
+/* Returns the loss of error e (e already divided by the state for relative curves). */
+static double error_loss(const lop_curve *c, double e)
 {
     switch (c->kind) {
     case LOP_CURVE_SQUARED:
@@ -99,14 +100,14 @@ double lop_curve_error_loss(const lop_curve *c, double e)
 double lop_curve_loss(const lop_curve *c, double estimate, double state)
 {
     if (!c->relative)
-        return lop_curve_error_loss(c, estimate - state);
+        return error_loss(c, estimate - state);
     if (c->kind == LOP_CURVE_TOLERANCE) {
         /* -below <= (x - s)/s <= above, multiplied out by s > 0: the form whose
          * comparisons are monotone in s, so the window search agrees with it exactly. */
         bool in = (1 - c->below) * state <= estimate && estimate <= (1 + c->above) * state;
         return in ? c->inside : c->outside;
     }
-    return lop_curve_error_loss(c, (estimate - state) / state);
+    return error_loss(c, (estimate - state) / state);
 }
 
 static bool finite_positive(double v)
@@ -951,7 +952,7 @@ static bool choose_points_path(lop_curve_work *w)
     if (!loss)
         return false;
     for (size_t t = 0; t < samples; t++)
-        loss[t] = lop_curve_error_loss(&w->c, ((double)k0 + (double)t) * h);
+        loss[t] = error_loss(&w->c, ((double)k0 + (double)t) * h);
     w->fft = lop_curve_fft_new(loss, n_s, n_e);
     free(loss);
     if (!w->fft)

@@ -8,7 +8,8 @@
 
 #define LOG_SQRT_2PI 0.91893853320467274178
 
-double lop_evidence_log_outcome(const lop_channel *c, size_t s, size_t outcome)
+/* Returns log P(outcome | state s) of one draw of a table channel (-inf when 0). */
+static double log_outcome(const lop_channel *c, size_t s, size_t outcome)
 {
     return log(c->given[s * c->n_outcomes + outcome]);
 }
@@ -20,7 +21,7 @@ double lop_evidence_log_counts(const lop_channel *c, size_t s, const size_t *cou
     for (size_t o = 0; o < c->n_outcomes; o++) {
         if (counts[o] == 0)
             continue;
-        ll += (double)counts[o] * lop_evidence_log_outcome(c, s, o) -
+        ll += (double)counts[o] * log_outcome(c, s, o) -
               gsl_sf_lnfact((unsigned)counts[o]);
     }
     return ll;
@@ -235,7 +236,7 @@ void lop_evidence_add_observed(const lop_problem *p, double *ll)
                     for (size_t r = 0; r < c->n_observed; r++)
                         k += c->observed_outcome[r] == o;
                     if (k)
-                        ll[s] += (double)k * lop_evidence_log_outcome(c, s, o);
+                        ll[s] += (double)k * log_outcome(c, s, o);
                 }
             } else {
                 for (size_t r = 0; r < c->n_observed; r++)

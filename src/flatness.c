@@ -91,7 +91,13 @@ static double side(level_ctx *l, double at, const double *grid, const double *va
     return dir * INFINITY;
 }
 
-void lop_flatness_find(lop_flat_fn fn, void *ctx, double at, double best, const double *grid,
+/* Fills f around the optimum `at` of fn (expected loss `best`): for each level, the
+ * range of x around `at` where fn(x) <= best + level·|best|. vals holds fn at the m
+ * increasing points of grid; crossings between points are refined by Brent's method
+ * unless `discrete` (then only grid points count). `bounded`: x lives on the grid, so a
+ * range stops at its ends; otherwise it is searched beyond the grid and is infinite when
+ * fn never leaves the level. */
+static void flatness_find(lop_flat_fn fn, void *ctx, double at, double best, const double *grid,
                        const double *vals, size_t m, bool bounded, bool discrete,
                        lop_flatness *f)
 {
@@ -131,7 +137,7 @@ void lop_flatness_estimates(const lop_problem *p, const double *post, const doub
                             double bayes_estimate, double best, lop_flatness *f)
 {
     estimate_ctx ctx = {p, post};
-    lop_flatness_find(estimate_loss, &ctx, bayes_estimate, best, p->estimates, el,
+    flatness_find(estimate_loss, &ctx, bayes_estimate, best, p->estimates, el,
                       p->n_estimates, true, false, f);
 }
 
@@ -166,7 +172,7 @@ bool lop_flatness_threshold(const lop_problem *p, const lop_channel *c, double t
         points[i] = counts ? lo + (double)i : grid[i];
         vals[i] = threshold_loss(points[i], &ctx);
     }
-    lop_flatness_find(threshold_loss, &ctx, t, best, points, vals, n, counts, counts, f);
+    flatness_find(threshold_loss, &ctx, t, best, points, vals, n, counts, counts, f);
     for (size_t k = 0; counts && k < LOP_FLAT_LEVELS; k++) {
         /* Every threshold at or below 0 takes the second action always, every one past
          * the grid the first: a range that reaches them runs on without end. */

@@ -29,7 +29,10 @@ double lop_posterior_normalize_above(const double *logw, size_t n, double cut, d
     return top + log(sum);
 }
 
-double lop_posterior_quantile(const lop_problem *pr, const double *p, double q)
+/* Returns the quantile at probability q of the distribution p over the states of a
+ * problem: on a grid each cell's mass is spread evenly over the cell (so the CDF is
+ * piecewise linear); over listed values, the smallest value whose CDF reaches q. */
+static double quantile(const lop_problem *pr, const double *p, double q)
 {
     size_t n = pr->n_states;
     const double *x = pr->state_values;
@@ -68,7 +71,7 @@ void lop_posterior_summarize(const lop_problem *pr, const double *p, lop_summary
     out->mean = m1;
     out->sd = sqrt(var);
     out->mode = pr->state_values[mode];
-    out->median = lop_posterior_quantile(pr, p, 0.5);
-    out->q05 = lop_posterior_quantile(pr, p, 0.05);
-    out->q95 = lop_posterior_quantile(pr, p, 0.95);
+    out->median = quantile(pr, p, 0.5);
+    out->q05 = quantile(pr, p, 0.05);
+    out->q95 = quantile(pr, p, 0.95);
 }

@@ -137,7 +137,9 @@ bool lop_rates_overall(const lop_problem *p, const lop_results *r, double *rates
     return true;
 }
 
-double lop_rates_above(const lop_channel *c, size_t s, double t)
+/* Returns P(summary >= t | s) for the channel's repeats: the upper-tail mass for
+ * continuous noise, P(X >= ceil t) for counts. */
+static double rates_above(const lop_channel *c, size_t s, double t)
 {
     size_t n = c->repeats;
     if (!lop_evidence_is_count(c))
@@ -167,7 +169,7 @@ double lop_rates_threshold(const lop_problem *p, const lop_channel *c, double t,
         memset(rates, 0, (by_state ? 2 * S : 2) * sizeof *rates);
     double total = 0;
     for (size_t s = 0; s < S; s++) {
-        double q = lop_rates_above(c, s, t);
+        double q = rates_above(c, s, t);
         total += p->prior[s] *
                  ((1 - q) * lop_problem_loss(p, 0, s) + q * lop_problem_loss(p, 1, s));
         if (!rates)

@@ -8,7 +8,8 @@
 #include "lopside/path.h"
 #include "lopside/study.h"
 
-void lop_study_number(double v, char *buf, size_t size)
+/* Writes to buf the shortest decimal text (%.15g to %.17g) that reads back as v. */
+static void study_number(double v, char *buf, size_t size)
 {
     for (int digits = 15; digits <= 17; digits++) {
         snprintf(buf, size, "%.*g", digits, v);
@@ -40,7 +41,7 @@ lop_problem *lop_study_model_at(lop_config *cfg, const char *const *paths,
     size_t used = 0;
     for (size_t k = 0; k < n; k++) {
         char number[32];
-        lop_study_number(values[k], number, sizeof number);
+        study_number(values[k], number, sizeof number);
         if (lop_path_set(cfg, paths[k], number, site->section, site->line, err) != LOP_OK)
             return NULL;
         int w = snprintf(settings + used, sizeof settings - used, "%s%s = %s",

@@ -114,7 +114,12 @@ static lop_status price_channel(const lop_problem *p, lop_results *r, size_t cha
     return st;
 }
 
-double lop_value_of_next(const lop_problem *p, size_t channel, const double *post, bool *computed,
+/* Returns the value of one more measurement of channel `channel` of p for a decider
+ * whose belief is post: prior-only risk minus Bayes risk of the problem whose prior is
+ * post and whose one channel is that one, measured once (Raiffa & Schlaifer 1961,
+ * preposterior analysis). Sets *computed false (with *why, the caller frees) when that
+ * rule cannot be computed; NAN with err set when memory runs out. */
+static double value_of_next(const lop_problem *p, size_t channel, const double *post, bool *computed,
                       char **why, lop_error *err)
 {
     /* A view of p: the case's posterior as the prior, and the one channel measured once.
@@ -171,7 +176,7 @@ lop_status lop_value_solve(const lop_problem *p, lop_results *r, const lop_progr
     for (size_t k = 0; k < spec->n_channels; k++) {
         lop_value_next *nx = &v->next[k];
         nx->channel = spec->channels[k];
-        nx->value = lop_value_of_next(p, nx->channel, r->kase.posterior, &nx->computed,
+        nx->value = value_of_next(p, nx->channel, r->kase.posterior, &nx->computed,
                                    &nx->not_computed_why, err);
         if (isnan(nx->value))
             return err->status;

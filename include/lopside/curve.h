@@ -50,9 +50,6 @@ typedef struct lop_curve_fft lop_curve_fft;
 /* Returns NULL when c is a usable curve, else a sentence saying what is wrong. */
 const char *lop_curve_invalid(const lop_curve *c);
 
-/* Returns the loss of error e (e already divided by the state for relative curves). */
-double lop_curve_error_loss(const lop_curve *c, double e);
-
 /* Returns the loss of estimating state by estimate (relative: state > 0). */
 double lop_curve_loss(const lop_curve *c, double estimate, double state);
 

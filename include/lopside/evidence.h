@@ -10,9 +10,6 @@
 
 #include "lopside/problem.h"
 
-/* Returns log P(outcome | state s) of one draw of a table channel (-inf when 0). */
-double lop_evidence_log_outcome(const lop_channel *c, size_t s, size_t outcome);
-
 /* Returns log P(counts | s) of a table channel: the multinomial over its repeats. */
 double lop_evidence_log_counts(const lop_channel *c, size_t s, const size_t *counts);
 

@@ -15,16 +15,6 @@ extern const double lop_flatness_levels[LOP_FLAT_LEVELS];
 /* An expected loss as a function of a setting x. */
 typedef double (*lop_flat_fn)(double x, void *ctx);
 
-/* Fills f around the optimum `at` of fn (expected loss `best`): for each level, the
- * range of x around `at` where fn(x) <= best + level·|best|. vals holds fn at the m
- * increasing points of grid; crossings between points are refined by Brent's method
- * unless `discrete` (then only grid points count). `bounded`: x lives on the grid, so a
- * range stops at its ends; otherwise it is searched beyond the grid and is infinite when
- * fn never leaves the level. */
-void lop_flatness_find(lop_flat_fn fn, void *ctx, double at, double best, const double *grid,
-                       const double *vals, size_t m, bool bounded, bool discrete,
-                       lop_flatness *f);
-
 /* Fills f for the case's estimate curve of an estimate problem under posterior post
  * (el: the expected loss of every estimate of p's estimate grid). */
 void lop_flatness_estimates(const lop_problem *p, const double *post, const double *el,

@@ -14,11 +14,6 @@ double lop_posterior_normalize(const double *logw, size_t n, double *p);
 /* The same, but weights below e^cut of the largest become exactly 0 without an exp. */
 double lop_posterior_normalize_above(const double *logw, size_t n, double cut, double *p);
 
-/* Returns the quantile at probability q of the distribution p over the states of a
- * problem: on a grid each cell's mass is spread evenly over the cell (so the CDF is
- * piecewise linear); over listed values, the smallest value whose CDF reaches q. */
-double lop_posterior_quantile(const lop_problem *pr, const double *p, double q);
-
 /* Writes the mean, sd, median, mode and 5% and 95% quantiles of p (numeric states). */
 void lop_posterior_summarize(const lop_problem *pr, const double *p, lop_summary *out);
 

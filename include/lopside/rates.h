@@ -22,10 +22,6 @@ bool lop_rates_by_state(const lop_problem *p, const lop_results *r, double *rate
  * rule in r; false as lop_rates_by_state, or when memory runs out. */
 bool lop_rates_overall(const lop_problem *p, const lop_results *r, double *rates);
 
-/* Returns P(summary >= t | s) for the channel's repeats: the upper-tail mass for
- * continuous noise, P(X >= ceil t) for counts. */
-double lop_rates_above(const lop_channel *c, size_t s, double t);
-
 /* Returns the expected loss of choosing action 1 when channel c's summary is at or
  * above t and action 0 below; writes the rates per action (P(a | s) at a·n_states + s
  * when by_state, else P(a)) to rates when not NULL. */

@@ -9,9 +9,6 @@
 #include "lopside/error.h"
 #include "lopside/problem.h"
 
-/* Writes to buf the shortest decimal text (%.15g to %.17g) that reads back as v. */
-void lop_study_number(double v, char *buf, size_t size);
-
 /* Returns the i-th of n evenly spaced values from `from` to `to` (both included). */
 double lop_study_axis(double from, double to, size_t n, size_t i);
 

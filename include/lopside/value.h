@@ -16,12 +16,4 @@
 lop_status lop_value_solve(const lop_problem *p, lop_results *r, const lop_progress *progress,
                            lop_error *err);
 
-/* Returns the value of one more measurement of channel `channel` of p for a decider
- * whose belief is post: prior-only risk minus Bayes risk of the problem whose prior is
- * post and whose one channel is that one, measured once (Raiffa & Schlaifer 1961,
- * preposterior analysis). Sets *computed false (with *why, the caller frees) when that
- * rule cannot be computed; NAN with err set when memory runs out. */
-double lop_value_of_next(const lop_problem *p, size_t channel, const double *post, bool *computed,
-                      char **why, lop_error *err);
-
 #endif

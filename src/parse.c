@@ -202,6 +202,26 @@ lop_status lop_parse_per_state(const lop_config *cfg, const lop_entry *e, size_t
     return LOP_OK;
 }
 
+int lop_entry_item_line(const lop_entry *e, size_t index)
+{
+    /* Items as lop_parse_list splits them: an empty item between a comma and a
+     * continuation is no item. */
+    const char *p = e->value;
+    size_t seen = 0;
+    for (;;) {
+        size_t len = strcspn(p, ",\n");
+        size_t lead = 0;
+        while (lead < len && (p[lead] == ' ' || p[lead] == '\t'))
+            lead++;
+        bool empty = lead == len;
+        if (!empty && seen++ == index)
+            return lop_entry_line_at(e, (size_t)(p - e->value));
+        if (p[len] == '\0')
+            return e->line;
+        p += len + 1;
+    }
+}
+
 long lop_list_index(const lop_list *list, const char *label)
 {
     for (size_t i = 0; i < list->n; i++)

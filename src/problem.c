@@ -301,13 +301,13 @@ static lop_status build_states(builder *b)
     for (size_t i = 0; i < p->n_states; i++)
         for (size_t j = 0; j < i; j++)
             if (p->state_values[i] == p->state_values[j])
-                return pb_error(b, values->line, "states", "values",
+                return pb_error(b, lop_entry_item_line(values, i), "states", "values",
                                 "duplicate value %s (entries %zu and %zu)",
                                 p->state_labels[i], j + 1, i + 1);
     /* Quantiles, estimates and switch points read the states in order. */
     for (size_t i = 1; i < p->n_states; i++)
         if (p->state_values[i] < p->state_values[i - 1])
-            return pb_error(b, values->line, "states", "values",
+            return pb_error(b, lop_entry_item_line(values, i), "states", "values",
                             "values must increase: entry %zu (%s) comes after %s", i + 1,
                             p->state_labels[i], p->state_labels[i - 1]);
     return LOP_OK;
@@ -354,7 +354,7 @@ static lop_status build_prior(builder *b)
     double sum = 0;
     for (size_t i = 0; i < n; i++) {
         if (p->prior[i] < 0)
-            return pb_error(b, e->line, "prior", "weights",
+            return pb_error(b, lop_entry_item_line(e, i), "prior", "weights",
                             "weight %zu (%s) is negative: weights must be >= 0", i + 1,
                             p->state_labels[i]);
         sum += p->prior[i];

@@ -109,8 +109,8 @@ static lop_status build_table_channel(builder *b, lop_channel *c)
             if (row[k] < 0 || row[k] > 1) {
                 double bad = row[k];
                 free(row);
-                return pb_error(b, g->line, c->section, key,
-                                   "probability %zu is %g: probabilities lie in [0, 1]",
+                return pb_error(b, lop_entry_item_line(g, k), c->section, key,
+                                "probability %zu is %g: probabilities lie in [0, 1]",
                                    k + 1, bad);
             }
             sum += row[k];
@@ -425,14 +425,14 @@ static lop_status check_observed_values(builder *b, const lop_channel *c,
         double x = c->observed_value[i];
         bool counts = c->noise == LOP_NOISE_POISSON || c->noise == LOP_NOISE_BINOMIAL;
         if (counts && (x < 0 || x != floor(x)))
-            return pb_error(b, e->line, c->section, "observed",
+            return pb_error(b, lop_entry_item_line(e, i), c->section, "observed",
                             "observation %zu is %g: counts are whole numbers >= 0", i + 1, x);
         if (c->noise == LOP_NOISE_BINOMIAL && x > (double)c->trials)
-            return pb_error(b, e->line, c->section, "observed",
+            return pb_error(b, lop_entry_item_line(e, i), c->section, "observed",
                             "observation %zu is %g successes out of %zu trials", i + 1, x,
                             c->trials);
         if (c->noise == LOP_NOISE_LOGNORMAL && !(x > 0))
-            return pb_error(b, e->line, c->section, "observed",
+            return pb_error(b, lop_entry_item_line(e, i), c->section, "observed",
                             "observation %zu is %g: lognormal measurements are > 0", i + 1, x);
     }
     return LOP_OK;

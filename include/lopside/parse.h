@@ -40,6 +40,10 @@ lop_status lop_parse_labels(const lop_config *cfg, const lop_entry *e, lop_list 
 lop_status lop_parse_per_state(const lop_config *cfg, const lop_entry *e, size_t want,
                                const char *what, double **out, lop_error *err);
 
+/* Returns the line holding item `index` (0-based) of e's list value (its continuation
+ * line when the list goes on), or the entry's line when there is no such item. */
+int lop_entry_item_line(const lop_entry *e, size_t index);
+
 /* Returns the index of label in list, or -1. */
 long lop_list_index(const lop_list *list, const char *label);
 

@@ -14,6 +14,7 @@
 #include "lopside/demo.h"
 #include "lopside/engine.h"
 #include "lopside/keys.h"
+#include "lopside/outfile.h"
 #include "lopside/problem.h"
 #include "lopside/progress.h"
 #include "lopside/provenance.h"
@@ -157,6 +158,7 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     lop_error err = {0};
     int status = EXIT_DONE;
     lop_results *results = NULL;
+    lop_outfile_list pending = {0};
     lop_problem *p = lop_problem_build(cfg, &err);
     if (!p)
         goto fail;
@@ -183,11 +185,11 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     lop_provenance_fill(&prov, cfg->path, cfg->text, cfg->text_len);
     prov.has_seed = p->simulate.present;
     prov.seed = p->simulate.seed;
-    if (json && lop_report_json(json, p, results, &prov, &err) != LOP_OK)
-        goto fail;
-    if (workbook && lop_report_xlsx(workbook, p, results, &prov, &err) != LOP_OK)
-        goto fail;
-    if (csv && lop_report_csv(csv, p, results, &prov, &err) != LOP_OK)
+    /* Every output is finished before any replaces its target: all or none. */
+    if ((json && lop_report_json(json, p, results, &prov, &pending, &err) != LOP_OK) ||
+        (workbook && lop_report_xlsx(workbook, p, results, &prov, &pending, &err) != LOP_OK) ||
+        (csv && lop_report_csv(csv, p, results, &prov, &pending, &err) != LOP_OK) ||
+        lop_outfile_commit_all(&pending, &err) != LOP_OK)
         goto fail;
     if (!opt->quiet)
         lop_report_text(stdout, p, results, &prov);
@@ -207,6 +209,7 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
 fail:
     status = print_error(&err);
 done:
+    lop_outfile_abandon_all(&pending);
     lop_results_free(results);
     lop_problem_free(p);
     return status;

@@ -88,3 +88,42 @@ void lop_outfile_abandon(lop_outfile *out)
     free(out->path);
     memset(out, 0, sizeof *out);
 }
+
+lop_status lop_outfile_defer(lop_outfile_list *list, lop_outfile *out, lop_error *err)
+{
+    if (lop_outfile_finish(out, err) != LOP_OK)
+        return LOP_ERUN;
+    lop_outfile *grown = realloc(list->items, (list->n + 1) * sizeof *grown);
+    if (!grown) {
+        lop_outfile_abandon(out);
+        return lop_error_run(err, "out of memory");
+    }
+    list->items = grown;
+    grown[list->n++] = *out;
+    memset(out, 0, sizeof *out);
+    return LOP_OK;
+}
+
+lop_status lop_outfile_commit_all(lop_outfile_list *list, lop_error *err)
+{
+    lop_status st = LOP_OK;
+    for (size_t i = 0; i < list->n; i++) {
+        if (st == LOP_OK)
+            st = lop_outfile_commit(&list->items[i], err);
+        else
+            lop_outfile_abandon(&list->items[i]);
+    }
+    free(list->items);
+    list->items = NULL;
+    list->n = 0;
+    return st;
+}
+
+void lop_outfile_abandon_all(lop_outfile_list *list)
+{
+    for (size_t i = 0; i < list->n; i++)
+        lop_outfile_abandon(&list->items[i]);
+    free(list->items);
+    list->items = NULL;
+    list->n = 0;
+}

@@ -2,8 +2,9 @@
  * point, numbers at 17 significant digits, CRLF line ends), and index.csv listing them.
  *
  * Safety: every file is written to a temporary beside its target inside the folder; only
- * when all of them are complete are they renamed into place (index.csv last). A failure
- * while writing removes every temporary and leaves every old file untouched. Files of an
+ * when all of them (and the run's other outputs) are complete are they renamed into
+ * place, index.csv last. A failure while writing removes every temporary and leaves
+ * every old file untouched. Files of an
  * earlier run that this run does not write stay; index.csv names the files of this run.
  * The folder itself (and any missing parent) is created when missing. */
 #include <errno.h>
@@ -673,7 +674,8 @@ static void table_index(csv_set *set)
 }
 
 lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_results *r,
-                          const lop_provenance *prov, lop_error *err)
+                          const lop_provenance *prov, lop_outfile_list *pending,
+                          lop_error *err)
 {
     if (make_folder(dir) != 0)
         return lop_error_run(err, "cannot write %s: %s", dir, strerror(errno));
@@ -690,10 +692,10 @@ lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_resul
     for (size_t t = 0; t < sizeof tables / sizeof tables[0] && set->status == LOP_OK; t++)
         tables[t](set);
     csv_end(set);
-    /* All complete: rename into place, index.csv (the last) only after the others. */
+    /* All complete: hand them over to be renamed, index.csv (the last) after the others. */
     for (size_t i = 0; i < set->n; i++) {
         if (set->status == LOP_OK)
-            set->status = lop_outfile_commit(&set->files[i].out, err);
+            set->status = lop_outfile_defer(pending, &set->files[i].out, err);
         else
             lop_outfile_abandon(&set->files[i].out);
     }

@@ -354,7 +354,8 @@ static json_t *simulation_json(const lop_problem *p, const lop_results *r)
 }
 
 lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
-                           const lop_provenance *prov, lop_error *err)
+                           const lop_provenance *prov, lop_outfile_list *pending,
+                           lop_error *err)
 {
     json_t *root = json_object();
     json_t *tool = json_object();
@@ -390,7 +391,7 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
             lop_outfile_abandon(&out);
             st = lop_error_run(err, "cannot write %s", path);
         } else {
-            st = lop_outfile_commit(&out, err);
+            st = lop_outfile_defer(pending, &out, err);
         }
     }
     json_decref(root);

@@ -880,7 +880,8 @@ static int sync_path(const char *path)
 }
 
 lop_status lop_report_xlsx(const char *path, const lop_problem *p, const lop_results *r,
-                           const lop_provenance *prov, lop_error *err)
+                           const lop_provenance *prov, lop_outfile_list *pending,
+                           lop_error *err)
 {
     lop_outfile out;
     if (lop_outfile_open(&out, path, err) != LOP_OK)
@@ -911,5 +912,5 @@ lop_status lop_report_xlsx(const char *path, const lop_problem *p, const lop_res
         lop_outfile_abandon(&out);
         return lop_error_run(err, "cannot write %s: %s", path, strerror(e));
     }
-    return lop_outfile_commit(&out, err);
+    return lop_outfile_defer(pending, &out, err);
 }

@@ -29,4 +29,22 @@ lop_status lop_outfile_commit(lop_outfile *out, lop_error *err);
 /* Removes the temporary and forgets out; safe after commit or on a zeroed struct. */
 void lop_outfile_abandon(lop_outfile *out);
 
+/* Finished temporaries waiting to be renamed together, so that a run's outputs appear
+ * all or none: a failure in any writer leaves every earlier target untouched. */
+typedef struct {
+    lop_outfile *items;
+    size_t n;
+} lop_outfile_list;
+
+/* Returns LOP_OK after finishing out and moving it into list (out is then empty); on
+ * failure out's temporary is removed and err names the path. */
+lop_status lop_outfile_defer(lop_outfile_list *list, lop_outfile *out, lop_error *err);
+
+/* Returns LOP_OK after renaming every temporary of list over its target, in order, and
+ * emptying list; after a failed rename the rest are removed and err names the path. */
+lop_status lop_outfile_commit_all(lop_outfile_list *list, lop_error *err);
+
+/* Removes every temporary of list and empties it. */
+void lop_outfile_abandon_all(lop_outfile_list *list);
+
 #endif

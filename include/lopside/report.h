@@ -5,6 +5,7 @@
 #include <stdio.h>
 
 #include "lopside/error.h"
+#include "lopside/outfile.h"
 #include "lopside/problem.h"
 #include "lopside/provenance.h"
 #include "lopside/results.h"
@@ -19,9 +20,11 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
 /* Writes the parsed problem, as `lopside check` shows it, to out. */
 void lop_report_problem(FILE *out, const lop_problem *p);
 
-/* Returns LOP_OK after writing the JSON results (format.md's keys) to path atomically. */
+/* Returns LOP_OK after writing the JSON results (format.md's keys) to a temporary beside
+ * path, handed to `pending` to be renamed with the run's other outputs. */
 lop_status lop_report_json(const char *path, const lop_problem *p, const lop_results *r,
-                           const lop_provenance *prov, lop_error *err);
+                           const lop_provenance *prov, lop_outfile_list *pending,
+                           lop_error *err);
 
 /* Writes to buf (size bytes, always terminated) how rule row `row` reads: "swab = flagged"
  * for one repeat, "swab: clear 1, flagged 1" for several, channels joined by "; ";
@@ -33,17 +36,19 @@ void lop_report_row_given(char *buf, size_t size, const lop_problem *p,
 const char *lop_report_noise_name(const lop_channel *c);
 
 /* Returns LOP_OK after writing one CSV file per table and index.csv into folder dir
- * (created with any missing parent). All files are written to temporaries and renamed
- * into place only when every one is complete; on failure no file in dir has changed
- * and err names the path. */
+ * (created with any missing parent) as temporaries, handed to `pending` (index.csv last)
+ * to be renamed with the run's other outputs; on failure no file in dir has changed and
+ * err names the path. */
 lop_status lop_report_csv(const char *dir, const lop_problem *p, const lop_results *r,
-                          const lop_provenance *prov, lop_error *err);
+                          const lop_provenance *prov, lop_outfile_list *pending,
+                          lop_error *err);
 
 /* Returns LOP_OK after writing the XLSX workbook (Summary, Case, Rule, and as the file asks
- * Rules, Value, a sheet per sweep, Designs and Simulation, then Inputs) to path through a
- * temporary in the same folder, renamed over path when complete; on failure the old file
- * is untouched and err names the path and libxlsxwriter's reason. */
+ * Rules, Value, a sheet per sweep, Designs and Simulation, then Inputs) to a temporary in
+ * path's folder, handed to `pending` to be renamed with the run's other outputs; on
+ * failure the old file is untouched and err names the path and libxlsxwriter's reason. */
 lop_status lop_report_xlsx(const char *path, const lop_problem *p, const lop_results *r,
-                           const lop_provenance *prov, lop_error *err);
+                           const lop_provenance *prov, lop_outfile_list *pending,
+                           lop_error *err);
 
 #endif

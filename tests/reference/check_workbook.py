@@ -891,6 +891,20 @@ def check_safety(c, tmp):
     c.ok("the message names the workbook path", os.path.join(folder, "missing", "w.xlsx")
          in res.stderr, res.stderr)
 
+    # A run's outputs land all or none: a workbook that cannot be written leaves an
+    # earlier JSON of the same run untouched (and no temporary beside it).
+    old_json = os.path.join(folder, "kept.json")
+    with open(old_json, "w") as f:
+        f.write("old results")
+    res = run(["run", ini, "-q", "--json", old_json, "--workbook",
+               os.path.join(folder, "missing", "w.xlsx")])
+    c.equal("JSON and a failing workbook exit 1", res.returncode, 1)
+    with open(old_json) as f:
+        c.equal("the JSON is untouched when the workbook fails", f.read(), "old results")
+    c.ok("no temporary is left beside the JSON",
+         not [n for n in os.listdir(folder) if n.startswith("kept.json.tmp")], listing(folder))
+    os.remove(old_json)
+
     blocker = os.path.join(folder, "plainfile")
     with open(blocker, "w") as f:
         f.write("not a folder")

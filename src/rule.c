@@ -112,7 +112,7 @@ static void measurement_grid(const lop_problem *p, const lop_channel *c, double 
         }
     }
     for (size_t i = 0; i < m; i++)
-        grid[i] = lo + (hi - lo) * (double)i / (double)(m - 1);
+        grid[i] = lop_grid_point(lo, hi, i, m);
 }
 
 /* Decides every grid point of one row, finds its switch points and returns its exact
@@ -163,6 +163,13 @@ static int solve_numeric_row(numeric_view *v, lop_rule_result *rule, size_t row,
     }
     *risk = total;
     return 0;
+}
+
+double lop_grid_point(double lo, double hi, size_t i, size_t n)
+{
+    double x = lo + (hi - lo) * (double)i / (double)(n - 1);
+    /* A point that should be 0 shows as 0, not as a rounding residue like -3.5e-11. */
+    return fabs(x) < 1e-12 * (hi - lo) ? 0 : x;
 }
 
 lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why)

@@ -286,7 +286,7 @@ static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_resul
         return -1;
     for (size_t i = 0; i < rule->n_grid; i++)
         rule->grid[i] = rule->count_grid ? lo + (double)i
-                                     : lo + (hi - lo) * (double)i / (double)(rule->n_grid - 1);
+                                     : lop_grid_point(lo, hi, i, rule->n_grid);
     return 0;
 }
 

@@ -6,6 +6,9 @@
 #include "lopside/problem.h"
 #include "lopside/results.h"
 
+/* Returns point i of n evenly spaced from lo to hi (a residue of rounding near 0 is 0). */
+double lop_grid_point(double lo, double hi, size_t i, size_t n);
+
 /* Returns LOP_OK after marking the rule not computed, with a warning saying why. */
 lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why);
 

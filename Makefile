@@ -102,10 +102,8 @@ bench: deps deps-test
 
 install: all
 	install -D -m 755 $(BUILD)/lopside $(DESTDIR)$(PREFIX)/bin/lopside
-	install -D -m 644 examples/tone_detection.ini \
-	    $(DESTDIR)$(PREFIX)/share/doc/lopside/examples/tone_detection.ini
-	install -D -m 644 examples/contamination_check.ini \
-	    $(DESTDIR)$(PREFIX)/share/doc/lopside/examples/contamination_check.ini
+	install -d $(DESTDIR)$(PREFIX)/share/doc/lopside/examples
+	install -m 644 examples/*.ini $(DESTDIR)$(PREFIX)/share/doc/lopside/examples/
 
 clean:
 	rm -rf build

@@ -150,20 +150,6 @@ const char *lop_curve_invalid(const lop_curve *c)
 
 /* ---- searches --------------------------------------------------------------------- */
 
-/* Returns the number of a[0..n-1] (non-decreasing) that are <= v. */
-static size_t count_at_most(const double *a, size_t n, double v)
-{
-    size_t lo = 0, hi = n;
-    while (lo < hi) {
-        size_t mid = lo + (hi - lo) / 2;
-        if (a[mid] <= v)
-            lo = mid + 1;
-        else
-            hi = mid;
-    }
-    return lo;
-}
-
 /* Returns the number of a[0..n-1] (non-decreasing) that are < v. */
 static size_t count_below(const double *a, size_t n, double v)
 {
@@ -377,7 +363,7 @@ static double linlin_bayes(const lop_curve_work *w)
     if (goal - tie > 0)
         lo = w->s[count_below(a + 1, n, goal - tie)];
     if (goal + tie < total)
-        hi = w->s[count_at_most(a, n, goal + tie) - 1];
+        hi = w->s[lop_count_at_most(a, n, goal + tie) - 1];
     double first = w->x[0], last = w->x[w->n_estimates - 1];
     if (lo > last)
         return last;
@@ -814,10 +800,10 @@ static double convex_at(lop_curve_work *w, const double *p, double x)
     case LOP_CURVE_LINLIN: {
         double under, over;
         linlin_weights(c, &under, &over);
-        return linlin_at(w, x, count_at_most(w->s, w->n_states, x), under, over);
+        return linlin_at(w, x, lop_count_at_most(w->s, w->n_states, x), under, over);
     }
     case LOP_CURVE_QUADQUAD:
-        return quadquad_at(w, x, count_at_most(w->s, w->n_states, x));
+        return quadquad_at(w, x, lop_count_at_most(w->s, w->n_states, x));
     default:
         return c->relative ? direct_at(w, p, x) : linex_at(w, x);
     }
@@ -857,7 +843,7 @@ double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min)
          * is convex in the estimate, so the best grid point is one of the two around the
          * continuous minimizer. */
         double m = convex_minimizer(w, p);
-        size_t k = count_at_most(w->x, w->n_estimates, m);
+        size_t k = lop_count_at_most(w->x, w->n_estimates, m);
         size_t lo = k ? k - 1 : 0, hi = k < w->n_estimates ? k : w->n_estimates - 1;
         double el_lo = convex_at(w, p, w->x[lo]), el_hi = convex_at(w, p, w->x[hi]);
         bool low = el_lo <= el_hi;

@@ -3,6 +3,7 @@
 
 #include "lopside/decide.h"
 #include "lopside/evidence.h"
+#include "lopside/interp.h"
 #include "lopside/posterior.h"
 
 /* Expected losses this close (relative to the largest loss) count as a tie:
@@ -61,14 +62,7 @@ double lop_decide_perfect(const lop_problem *p, const double *w)
 static double best_near(const lop_problem *p, double state, double target, double best)
 {
     const double *x = p->estimates;
-    size_t lo = 0, hi = p->n_estimates; /* first estimate above target */
-    while (lo < hi) {
-        size_t mid = lo + (hi - lo) / 2;
-        if (x[mid] <= target)
-            lo = mid + 1;
-        else
-            hi = mid;
-    }
+    size_t lo = lop_count_at_most(x, p->n_estimates, target); /* first estimate above */
     for (size_t j = lo > 0 ? lo - 1 : 0; j <= lo && j < p->n_estimates; j++)
         best = fmin(best, lop_curve_loss(&p->curve, x[j], state));
     return best;

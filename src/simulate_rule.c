@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "lopside/interp.h"
 #include "lopside/decide.h"
 #include "lopside/evidence.h"
 #include "lopside/posterior.h"
@@ -20,19 +21,6 @@
 /* Bisection steps that locate a believed rule's switch point between two grid points:
  * 2^-60 of a cell, below the spacing of doubles near it. */
 #define BISECTION_STEPS 60
-
-size_t lop_simulate_cut_index(const double *cuts, size_t n, double x)
-{
-    size_t lo = 0, hi = n;
-    while (lo < hi) {
-        size_t mid = lo + (hi - lo) / 2;
-        if (cuts[mid] <= x)
-            lo = mid + 1;
-        else
-            hi = mid;
-    }
-    return lo;
-}
 
 double lop_simulate_interpolate(const double *v, size_t n, double x0, double inv_h, double x)
 {
@@ -104,7 +92,7 @@ size_t sim_decide_action(const sim_decider *d, const sim_trial *t)
     case SIM_CUTS: {
         size_t row = d->one_row ? 0 : t->row;
         size_t f = d->first[row], n = d->first[row + 1] - f;
-        return d->acts[f + row + lop_simulate_cut_index(d->cuts + f, n, t->x)];
+        return d->acts[f + row + lop_count_at_most(d->cuts + f, n, t->x)];
     }
     case SIM_GRID_ACTION:
         return d->grid_action[lop_simulate_nearest(d->n_grid, d->x0, d->inv_h, t->x)];
@@ -124,7 +112,7 @@ static double snap_to(const sim_decider *d, double x)
     if (d->snap_inv_h > 0) {
         i = lop_simulate_nearest(n, v[0], d->snap_inv_h, x);
     } else {
-        i = lop_simulate_cut_index(v, n, x);
+        i = lop_count_at_most(v, n, x);
         i = i == n ? n - 1 : i;
     }
     if (i > 0 && fabs(x - v[i - 1]) <= fabs(x - v[i]))

@@ -31,10 +31,6 @@ typedef struct {
 lop_status lop_simulate_run(const lop_problem *p, lop_results *r, const lop_simulate_control *ctl,
                             lop_error *err);
 
-/* Returns the number of the n sorted cut points that are <= x (binary search): the index
- * of the interval that holds x. */
-size_t lop_simulate_cut_index(const double *cuts, size_t n, double x);
-
 /* Returns the value at x of the linear interpolation of v over the uniform grid
  * x0 + i·h (i = 0 .. n-1, inv_h = 1/h), flat beyond its ends. */
 double lop_simulate_interpolate(const double *v, size_t n, double x0, double inv_h, double x);

@@ -2,6 +2,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 
+#include "lopside/interp.h"
 #include "lopside/simulate.h"
 #include "testutil.h"
 /* The deciders and the trial drawer are private to the simulation; their lookups are
@@ -101,12 +102,12 @@ END_TEST
 START_TEST(cut_index_counts_cuts_at_or_below)
 {
     const double cuts[] = {-1, 0.5, 0.5, 2};
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 4, -3), 0);
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 4, -1), 1); /* at a cut: the upper side */
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 4, 0.49), 1);
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 4, 0.5), 3);
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 4, 7), 4);
-    ck_assert_uint_eq(lop_simulate_cut_index(cuts, 0, 7), 0);
+    ck_assert_uint_eq(lop_count_at_most(cuts, 4, -3), 0);
+    ck_assert_uint_eq(lop_count_at_most(cuts, 4, -1), 1); /* at a cut: the upper side */
+    ck_assert_uint_eq(lop_count_at_most(cuts, 4, 0.49), 1);
+    ck_assert_uint_eq(lop_count_at_most(cuts, 4, 0.5), 3);
+    ck_assert_uint_eq(lop_count_at_most(cuts, 4, 7), 4);
+    ck_assert_uint_eq(lop_count_at_most(cuts, 0, 7), 0);
 }
 END_TEST
 

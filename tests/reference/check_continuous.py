@@ -473,6 +473,86 @@ def problems():
 
 
 # ---------------------------------------------------------------------------------------
+# 6b. Finite numeric states with a zero rate (values = 0, 5, 20, Poisson counts): exact
+#     sums. A count k > 0 rules the zero-rate state out; the rule decides on the sum of
+#     `repeats` counts, Poisson with mean repeats·window·v. The sums run to the count where
+#     the largest state's Poisson tail is below 1e-16.
+FINITE = """[problem]
+title = Flash intensity from photon counts, one state is a dark trial
+[states]
+values = 0, 5, 20
+[prior]
+weights = 0.5, 0.3, 0.2
+[evidence.tube]
+noise = poisson
+window = 0.4
+repeats = 2
+observed = 1, 0
+[actions]
+labels = dark, dim, bright
+[loss]
+dark = 0, 4, 9
+dim = 3, 0, 4
+bright = 8, 3, 0
+[value]
+up_to = 3
+"""
+
+
+def check_finite_zero_rate(runner, tally):
+    G = G6
+    d = runner.run("finite_zero_rate", FINITE, G)
+    if d is None:
+        return
+    vals, w = np.array([0.0, 5.0, 20.0]), np.array([0.5, 0.3, 0.2])
+    L = np.array([[0, 4, 9], [3, 0, 4], [8, 3, 0]], float)
+    labels = ["dark", "dim", "bright"]
+    acc, S = 1e-6, 9.0
+
+    def pmf(k, n):
+        mu = n * 0.4 * vals
+        return np.where(mu > 0, stats.poisson.pmf(k, np.where(mu > 0, mu, 1)), (k == 0) * 1.0)
+    post = w * pmf(1, 1) * pmf(0, 1)
+    post /= post.sum()
+    close = lambda what, got, want, unit=S: tally.close(G, f"finite_zero_rate: {what}", got, want, acc * unit)
+    for i, p in enumerate(get(d, "case", "posterior", "p") or [None] * 3):
+        close(f"posterior p[{vals[i]:g}]", p, post[i], 1.0)
+    el = L @ post
+    got = {a.get("action"): a.get("expected_loss") for a in get(d, "case", "actions") or []}
+    for lab, e in zip(labels, el):
+        close(f"expected loss of {lab}", got.get(lab), e)
+    tally.record(G, get(d, "case", "bayes_action") == labels[int(np.argmin(el))],
+                 f"finite_zero_rate: Bayes action {get(d, 'case', 'bayes_action')!r}")
+
+    def rule(n):
+        kmax = int(stats.poisson.isf(1e-16, n * 0.4 * vals.max())) + 1
+        risk, acts = 0.0, []
+        for k in range(kmax + 1):
+            joint = w * pmf(k, n)
+            e = L @ joint
+            acts.append(int(np.argmin(e)))
+            risk += e.min()
+        sw = [float(k) for k in range(1, len(acts)) if acts[k] != acts[k - 1]]
+        return risk, sw
+    br, sw = rule(2)
+    r = d.get("rule") or {}
+    close("prior-only risk", r.get("prior_only_risk"), float(np.min(L @ w)))
+    close("Bayes risk", r.get("bayes_risk"), br)
+    got_sw = [p.get("x") for p in r.get("switch_points") or []]
+    tally.record(G, got_sw == sw, f"finite_zero_rate: switch points {got_sw}, exact (first count) {sw}")
+    v = d.get("value") or {}
+    evpi = br - float(w @ L.min(axis=0))
+    close("value EVPI", v.get("evpi"), evpi)
+    prev = 0.0
+    for e in sorted(v.get("extra") or [], key=lambda e: e.get("n", 0)):
+        ev = e.get("evsi")
+        close(f"EVSI n={e.get('n')}", ev, br - rule(2 + e["n"])[0])
+        tally.record(G, ev is not None and prev <= ev <= v.get("evpi", math.inf),
+                     f"finite_zero_rate: EVSI n={e.get('n')} {ev!r} outside [{prev!r}, EVPI]")
+        prev = ev if ev is not None else prev
+
+
+# ---------------------------------------------------------------------------------------
 # 0. The reference itself against closed forms (no lopside run): a wrong quadrature,
 #    quantile or switch-point search in contmodel.py shows here, not as a lopside failure.
 #    Tolerance 1e-9 of the unit, far below the 1e-6 the contract asks of lopside.
@@ -496,6 +576,12 @@ def check_reference(runner, tally):
     close("normal: Bayes risk 2v (shift-invariant)", m.bayes_risk()[0], 2 * v)
     close("normal: EVSI n=2 = 2(v - v₃)", m.bayes_risk()[0] - m.bayes_risk(n=3)[0],
           2 * (v - 1 / (1 / 16 + 3 / 2.5 ** 2)))
+    # A flat prior on [9.9, 10.1], one gauge reading 10.03 with sd 0.02: the normal
+    # likelihood truncated to the interval (scipy.stats.truncnorm).
+    tn = stats.truncnorm((9.9 - 10.03) / 0.02, (10.1 - 10.03) / 0.02, loc=10.03, scale=0.02)
+    c = cm.Model(P["uniform_gauge"]).case(mode=False)
+    close("flat prior: truncated-normal mean", c["posterior"]["mean"], tn.mean(), 0.2)
+    close("flat prior: truncated-normal q05", c["posterior"]["q05"], tn.ppf(0.05), 0.2)
     # linlin: the quantile τ = 1/5 (Berger 1985, Sec. 2.4.2, from memory); its expected loss
     # (under + over)·sd·φ(z_τ) for a normal posterior (own derivation).
     c = cm.Model(P["curve_linlin"]).case()
@@ -568,11 +654,11 @@ def random_problems(n, seed):
         if rng.random() < 0.5:
             k = rng.choice([1, 2])
             cuts = sorted(round(mu + rng.gauss(0, tau), 4) for _ in range(k))
-            rows = {"a": ", ".join(str(rng.choice([0, 1, 2, 4])) for _ in range(k + 1)),
-                    "b": ", ".join(str(rng.choice([0, 1, 3, 5])) for _ in range(k + 1))}
-            if rows["a"] == rows["b"]:
-                rows["b"] = ", ".join(["6"] * (k + 1))
-            text = choice(f"Random choice {i}", states, prior, ev, ["a", "b"],
+            rows = {"go": ", ".join(str(rng.choice([0, 1, 2, 4])) for _ in range(k + 1)),
+                    "stay": ", ".join(str(rng.choice([0, 1, 3, 5])) for _ in range(k + 1))}
+            if rows["go"] == rows["stay"]:
+                rows["stay"] = ", ".join(["6"] * (k + 1))
+            text = choice(f"Random choice {i}", states, prior, ev, ["go", "stay"],
                           ("loss", dict({"cuts": ", ".join(map(str, cuts))}, **rows)))
         else:
             curve = rng.choice([{"curve": "squared"}, {"curve": "absolute"},
@@ -614,7 +700,7 @@ def main():
             except Exception as e:
                 tally.record(G, False, f"{name}: reference error {e!r}")
 
-    checks = [check_reference, fixed] + ([randoms] if args.random > 0 else [])
+    checks = [check_reference, fixed, check_finite_zero_rate] + ([randoms] if args.random > 0 else [])
     return refkit.main("lopside_continuous_", checks, context=Runner, tally=refkit.Tally(max_details=args.details or None))
 
 

@@ -34,7 +34,7 @@ import random
 import sys
 
 import numpy as np
-from scipy import stats
+from scipy import special, stats
 
 sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
 import refkit  # noqa: E402
@@ -324,7 +324,7 @@ def problems():
                                                      "value": "180, 640, 1150"})], SQ))
     add(G2, "two_channels", est("Flash rate from a counter and a rating", {"from": 0, "to": 30, "points": 601},
                                 {"family": "gamma", "shape": 3, "scale": 2},
-                                [("evidence.counter", {"noise": "poisson", "observed": "6, 9"}),
+                                [("evidence.counter", {"noise": "poisson", "repeats": 2, "observed": "6, 9"}),
                                  ("evidence.rating", {"noise": "gaussian", "sd": 2, "observed": 8.5})],
                                 SQ), rule=False)
     # 3. Loss curves, normal prior and gaussian noise (±15 prior sd on the grid).
@@ -422,7 +422,7 @@ def problems():
                                                 value={"up_to": 3}))
     add(G6, "rate_exponential_zero", est("Dark count rate, exponential prior from zero",
                                          {"from": 0, "to": 25, "points": 501}, {"family": "exponential", "mean": 2},
-                                         [("evidence.tube", {"noise": "poisson", "window": 2, "observed": "0, 1"})],
+                                         [("evidence.tube", {"noise": "poisson", "window": 2, "repeats": 2, "observed": "0, 1"})],
                                          ("loss", {"curve": "absolute"})))
     # 7. Threshold and believed rules on grid choices.
     rules7 = [("rule.early", {"kind": "threshold", "at": 560}), ("rule.late", {"kind": "threshold", "at": 640}),
@@ -609,6 +609,18 @@ def check_reference(runner, tally):
     close("gamma-Poisson: median", c["posterior"]["median"], post.ppf(0.5 * F))
     close("gamma-Poisson: expected loss of low = 5·P(s >= 6.05)", c["actions"][0],
           5 * (F - post.cdf(6.05)) / F)
+    # The count rule's Bayes risk: Σ_k min(5·P(K=k, s >= c), 2·P(K=k, s < c)) with the
+    # gamma-Poisson joint mass b^a Γ(a+k)/(Γ(a) k! (b+1)^(a+k))·P(a+k, (b+1)s) between s
+    # bounds (own derivation from the gamma integral), prior cut to [0, 30].
+    a, rate, T, cut = 2.0, 1 / 3, 30.0, 6.05
+
+    def mass(k, lo, hi):
+        coef = math.exp(a * math.log(rate) + math.lgamma(a + k) - math.lgamma(a) - math.lgamma(k + 1)
+                        - (a + k) * math.log(rate + 1))
+        return coef * (special.gammainc(a + k, (rate + 1) * hi) - special.gammainc(a + k, (rate + 1) * lo)) \
+            / special.gammainc(a, rate * T)
+    want = sum(min(5 * mass(k, cut, T), 2 * mass(k, 0, cut)) for k in range(200))
+    close("gamma-Poisson choice: Bayes risk over all counts", m.bayes_risk()[0], want)
     # Beta(2, 5) prior, 4 of 12: posterior beta(6, 13) (Gelman et al. 2013, Sec. 2.4).
     c = cm.Model(P["beta_unit"]).case()
     b = stats.beta(6, 13)

@@ -49,9 +49,12 @@ double lop_decide_perfect(const lop_problem *p, const double *w)
     double sum = 0;
     for (size_t s = 0; s < p->n_states; s++) {
         double best = INFINITY;
-        for (size_t a = 0; a < p->n_actions; a++)
-            if (lop_problem_loss(p, a, s) < best)
-                best = lop_problem_loss(p, a, s);
+        if (p->perfect) {
+            best = p->perfect[s];
+        } else {
+            for (size_t a = 0; a < p->n_actions; a++)
+                best = fmin(best, lop_problem_loss(p, a, s));
+        }
         sum += w[s] * best;
     }
     return sum;
@@ -113,7 +116,7 @@ lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err)
     if (!logw)
         return lop_error_run(err, "out of memory");
     for (size_t s = 0; s < p->n_states; s++)
-        logw[s] = log(p->prior[s]);
+        logw[s] = p->log_prior[s];
     lop_evidence_add_observed(p, logw);
     double norm = lop_posterior_normalize(logw, p->n_states, c->posterior);
     free(logw);

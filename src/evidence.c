@@ -79,9 +79,55 @@ double lop_evidence_log_summary(const lop_channel *c, size_t s, double x, size_t
     return NAN;
 }
 
+/* Returns P(X <= k) of the count summary of n repeats in state s (k a whole number or
+ * -1): Poisson(n·window·r) or Binomial(n·trials, r), with the degenerate rates 0 and 1
+ * (GSL's CDFs refuse a Poisson mean of 0). */
+static double count_cdf(const lop_channel *c, size_t s, double k, size_t n)
+{
+    double r = c->center[s];
+    if (k < 0)
+        return 0;
+    if (c->noise == LOP_NOISE_POISSON) {
+        double mu = (double)n * c->window * r;
+        return mu > 0 ? gsl_cdf_poisson_P((unsigned)k, mu) : 1;
+    }
+    double trials = (double)(n * c->trials);
+    if (k >= trials || r <= 0)
+        return 1;
+    return r >= 1 ? 0 : gsl_cdf_binomial_P((unsigned)k, r, (unsigned)trials);
+}
+
+/* The same upper tail, P(X > k), computed directly so a small one keeps its digits. */
+static double count_sf(const lop_channel *c, size_t s, double k, size_t n)
+{
+    double r = c->center[s];
+    if (k < 0)
+        return 1;
+    if (c->noise == LOP_NOISE_POISSON) {
+        double mu = (double)n * c->window * r;
+        return mu > 0 ? gsl_cdf_poisson_Q((unsigned)k, mu) : 0;
+    }
+    double trials = (double)(n * c->trials);
+    if (k >= trials || r <= 0)
+        return 0;
+    return r >= 1 ? 1 : gsl_cdf_binomial_Q((unsigned)k, r, (unsigned)trials);
+}
+
 double lop_evidence_summary_mass(const lop_channel *c, size_t s, double lo, double hi,
                                  size_t n)
 {
+    if (!(hi > lo))
+        return 0;
+    if (lop_evidence_is_count(c)) {
+        /* Counts lo <= X < hi: P(X <= ceil(hi) - 1) - P(X <= ceil(lo) - 1). */
+        double a = lo == -INFINITY ? -1 : ceil(lo) - 1;
+        double b = hi == INFINITY ? INFINITY : ceil(hi) - 1;
+        if (b == INFINITY)
+            return count_sf(c, s, a, n);
+        if (count_cdf(c, s, a, n) > 0.5)
+            return count_sf(c, s, a, n) - count_sf(c, s, b, n);
+        return count_cdf(c, s, b, n) - count_cdf(c, s, a, n);
+    }
     double sd = summary_sd(c, s, n), m = c->center[s];
     if (c->noise == LOP_NOISE_LOGNORMAL) {
         lo = lo > 0 ? log(lo) : -INFINITY;
@@ -107,15 +153,12 @@ double lop_evidence_summary_quantile(const lop_channel *c, size_t s, double q, s
     case LOP_NOISE_BINOMIAL: {
         /* GSL has no discrete inverse: bisect on the CDF over the whole numbers. */
         double mu = (double)n * c->window * r;
-        unsigned trials = (unsigned)(n * c->trials);
         unsigned lo = 0, hi = c->noise == LOP_NOISE_BINOMIAL
-                                  ? trials
+                                  ? (unsigned)(n * c->trials)
                                   : (unsigned)(mu + 50 * sqrt(mu + 1) + 50);
         while (lo < hi) {
             unsigned mid = lo + (hi - lo) / 2;
-            double cdf = c->noise == LOP_NOISE_POISSON ? gsl_cdf_poisson_P(mid, mu)
-                                                       : gsl_cdf_binomial_P(mid, r, trials);
-            if (cdf >= q)
+            if (count_cdf(c, s, mid, n) >= q)
                 hi = mid;
             else
                 lo = mid + 1;

@@ -24,6 +24,8 @@ static const lop_key_spec keys[] = {
     {"problem", "notes", "free text carried into the reports"},
     {"problem", "unit", "unit of the state, e.g. ms"},
     {"problem", "score_unit", "unit of loss or payoff, e.g. points"},
+    {"problem", "accuracy", "error allowed in every number, relative to its scale (1e-6)"},
+    {"problem", "refine", "halve the grids' steps this many times before solving (0)"},
 
     {"states", "labels", "named states: clean, contaminated"},
     {"states", "values", "numeric states: 1, 2, 4, 8"},

@@ -10,6 +10,7 @@
 
 #include <gsl/gsl_errno.h>
 
+#include "lopside/accuracy.h"
 #include "lopside/config.h"
 #include "lopside/demo.h"
 #include "lopside/engine.h"
@@ -159,7 +160,8 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
     int status = EXIT_DONE;
     lop_results *results = NULL;
     lop_outfile_list pending = {0};
-    lop_problem *p = lop_problem_build(cfg, &err);
+    lop_problem *given = lop_problem_build(cfg, &err), *p = given;
+    lop_solution solution = {0};
     if (!p)
         goto fail;
     const char *json = opt->json ? opt->json : p->out_json;
@@ -169,9 +171,12 @@ static int solve_and_report(lop_config *cfg, const run_options *opt)
         workbook = opt->default_workbook;
     lop_progress_line line = {0};
     lop_progress progress = lop_progress_stderr(&line);
-    results = lop_engine_solve_progress(p, &progress, &err);
-    if (!results)
+    if (lop_accuracy_solve(given, &progress, &solution, &err) != LOP_OK)
         goto fail;
+    results = solution.results;
+    /* The answer belongs to the grids it was solved on: the refined problem, if any. */
+    if (solution.refined)
+        p = solution.refined;
     if (p->simulate.present) {
         int sim = simulate(p, results, &progress, &err);
         if (sim == EXIT_INTERRUPTED) {
@@ -211,7 +216,8 @@ fail:
 done:
     lop_outfile_abandon_all(&pending);
     lop_results_free(results);
-    lop_problem_free(p);
+    lop_problem_free(solution.refined);
+    lop_problem_free(given);
     return status;
 }
 

@@ -1,3 +1,4 @@
+#include <float.h>
 #include <math.h>
 #include <stdbool.h>
 #include <stdio.h>
@@ -5,15 +6,21 @@
 #include <string.h>
 
 #include <gsl/gsl_cdf.h>
+#include <gsl/gsl_sf_erf.h>
+#include <gsl/gsl_sf_gamma.h>
 
 #include "lopside/parse.h"
 #include "lopside/prior.h"
 #include "lopside/strutil.h"
 
 #define MAX_PARAMS 3
-/* A beta grid's cells may pass 0 or 1 by this share of h: the rounding of s[0] + i*h
- * (from = 0.05, to = 0.95, points = 10 puts the last edge a few ulps above 1). */
-#define UNIT_SLACK 1e-9
+/* A cell mass below this many times the smallest double has lost digits to underflow
+ * in the difference of tails: its log comes from the log tails or the log density. */
+#define TINY_MASS (1e20 * DBL_MIN)
+#define LOG_SQRT_2PI 0.91893853320467274178
+#define SQRT_2 1.41421356237309504880
+#define LOG_2 0.69314718055994530942
+#define LOG_PI 1.14472988584940017414
 
 typedef enum { KIND_CDF, KIND_TABLE, KIND_MIXTURE } family_kind;
 
@@ -25,10 +32,12 @@ typedef struct {
     family_kind kind;
     const char *keys[MAX_PARAMS + 1]; /* NULL after the last */
     unsigned positive;                /* bit i: keys[i] must be > 0 */
-    bool grid_defaults;               /* uniform: keys default to the grid's outer edges */
-    bool grid_in_support;             /* beta: every cell must lie inside the support */
+    bool grid_defaults;               /* uniform: keys default to the grid's range */
     double support_lo, support_hi;    /* P = 0 at or below lo, Q = 0 at or above hi */
     tail_fn lower, upper;             /* P(X <= x) and P(X > x) */
+    tail_fn log_lower, log_upper;     /* their logs far out, where they underflow; NULL:
+                                         no closed form, the density stands in */
+    tail_fn log_density;              /* log of the density at x inside the support */
 } family_spec;
 
 /* uniform on [low, high]: P = (x - low)/(high - low) clipped to [0, 1] (gsl_cdf_flat_P). */
@@ -72,28 +81,89 @@ static double student_Q(const double *k, double x)
 static double exponential_P(const double *k, double x) { return gsl_cdf_exponential_P(x, k[0]); }
 static double exponential_Q(const double *k, double x) { return gsl_cdf_exponential_Q(x, k[0]); }
 
+/* log Phi(z) and log(1 - Phi(z)) without underflow: log(erfc(-z/sqrt 2)/2)
+ * (gsl_sf_log_erfc, Abramowitz & Stegun 7.1.2). */
+static double log_phi_lower(double z) { return gsl_sf_log_erfc(-z / SQRT_2) - LOG_2; }
+static double log_phi_upper(double z) { return gsl_sf_log_erfc(z / SQRT_2) - LOG_2; }
+
+static double normal_logP(const double *k, double x) { return log_phi_lower((x - k[0]) / k[1]); }
+static double normal_logQ(const double *k, double x) { return log_phi_upper((x - k[0]) / k[1]); }
+/* normal density: -z^2/2 - log(sd) - log sqrt(2 pi). */
+static double normal_logf(const double *k, double x)
+{
+    double z = (x - k[0]) / k[1];
+    return -0.5 * z * z - log(k[1]) - LOG_SQRT_2PI;
+}
+
+static double lognormal_logP(const double *k, double x)
+{
+    return log_phi_lower((log(x) - log(k[0])) / k[1]);
+}
+static double lognormal_logQ(const double *k, double x)
+{
+    return log_phi_upper((log(x) - log(k[0])) / k[1]);
+}
+/* lognormal density: the normal density of log x over x. */
+static double lognormal_logf(const double *k, double x)
+{
+    double z = (log(x) - log(k[0])) / k[1];
+    return -0.5 * z * z - log(k[1]) - LOG_SQRT_2PI - log(x);
+}
+
+/* exponential: log P = log(1 - exp(-x/mean)), log Q = -x/mean, log f = -x/mean - log mean. */
+static double exponential_logP(const double *k, double x) { return log(-expm1(-x / k[0])); }
+static double exponential_logQ(const double *k, double x) { return -x / k[0]; }
+static double exponential_logf(const double *k, double x) { return -x / k[0] - log(k[0]); }
+
+/* uniform density: 1/(high - low) inside. */
+static double uniform_logf(const double *k, double x)
+{
+    return x < k[0] || x > k[1] ? -INFINITY : -log(k[1] - k[0]);
+}
+
+/* gamma density: (shape - 1) log x - x/scale - lgamma(shape) - shape log scale. */
+static double gamma_logf(const double *k, double x)
+{
+    return (k[0] - 1) * log(x) - x / k[1] - gsl_sf_lngamma(k[0]) - k[0] * log(k[1]);
+}
+
+/* beta density: (alpha - 1) log x + (beta - 1) log(1 - x) - log B(alpha, beta). */
+static double beta_logf(const double *k, double x)
+{
+    return (k[0] - 1) * log(x) + (k[1] - 1) * log1p(-x) - gsl_sf_lnbeta(k[0], k[1]);
+}
+
+/* location-scale t density: lgamma((df+1)/2) - lgamma(df/2) - log(sqrt(df pi) scale)
+ * - (df+1)/2 log(1 + z^2/df). */
+static double student_logf(const double *k, double x)
+{
+    double z = (x - k[0]) / k[1], df = k[2];
+    return gsl_sf_lngamma((df + 1) / 2) - gsl_sf_lngamma(df / 2) -
+           0.5 * (log(df) + LOG_PI) - log(k[1]) - (df + 1) / 2 * log1p(z * z / df);
+}
+
 #define POS(i) (1u << (i))
 
 /* The families of format.md's [prior] table, in its order. */
 static const family_spec families[] = {
-    {"uniform", KIND_CDF, {"low", "high", NULL}, 0, true, false, -INFINITY, INFINITY,
-     uniform_P, uniform_Q},
-    {"normal", KIND_CDF, {"mean", "sd", NULL}, POS(1), false, false, -INFINITY, INFINITY,
-     normal_P, normal_Q},
-    {"lognormal", KIND_CDF, {"median", "log_sd", NULL}, POS(0) | POS(1), false, false, 0,
-     INFINITY, lognormal_P, lognormal_Q},
-    {"gamma", KIND_CDF, {"shape", "scale", NULL}, POS(0) | POS(1), false, false, 0, INFINITY,
-     gamma_P, gamma_Q},
-    {"beta", KIND_CDF, {"alpha", "beta", NULL}, POS(0) | POS(1), false, true, 0, 1, beta_P,
-     beta_Q},
-    {"student", KIND_CDF, {"center", "scale", "df", NULL}, POS(1) | POS(2), false, false,
-     -INFINITY, INFINITY, student_P, student_Q},
-    {"exponential", KIND_CDF, {"mean", NULL}, POS(0), false, false, 0, INFINITY,
-     exponential_P, exponential_Q},
-    {"table", KIND_TABLE, {"at", "density", NULL}, 0, false, false, -INFINITY, INFINITY, NULL,
-     NULL},
-    {"mixture", KIND_MIXTURE, {"parts", NULL}, 0, false, false, -INFINITY, INFINITY, NULL,
-     NULL},
+    {"uniform", KIND_CDF, {"low", "high", NULL}, 0, true, -INFINITY, INFINITY, uniform_P,
+     uniform_Q, NULL, NULL, uniform_logf},
+    {"normal", KIND_CDF, {"mean", "sd", NULL}, POS(1), false, -INFINITY, INFINITY, normal_P,
+     normal_Q, normal_logP, normal_logQ, normal_logf},
+    {"lognormal", KIND_CDF, {"median", "log_sd", NULL}, POS(0) | POS(1), false, 0, INFINITY,
+     lognormal_P, lognormal_Q, lognormal_logP, lognormal_logQ, lognormal_logf},
+    {"gamma", KIND_CDF, {"shape", "scale", NULL}, POS(0) | POS(1), false, 0, INFINITY,
+     gamma_P, gamma_Q, NULL, NULL, gamma_logf},
+    {"beta", KIND_CDF, {"alpha", "beta", NULL}, POS(0) | POS(1), false, 0, 1, beta_P, beta_Q,
+     NULL, NULL, beta_logf},
+    {"student", KIND_CDF, {"center", "scale", "df", NULL}, POS(1) | POS(2), false, -INFINITY,
+     INFINITY, student_P, student_Q, NULL, NULL, student_logf},
+    {"exponential", KIND_CDF, {"mean", NULL}, POS(0), false, 0, INFINITY, exponential_P,
+     exponential_Q, exponential_logP, exponential_logQ, exponential_logf},
+    {"table", KIND_TABLE, {"at", "density", NULL}, 0, false, -INFINITY, INFINITY, NULL, NULL,
+     NULL, NULL, NULL},
+    {"mixture", KIND_MIXTURE, {"parts", NULL}, 0, false, -INFINITY, INFINITY, NULL, NULL, NULL,
+     NULL, NULL},
 };
 
 #define N_FAMILIES (sizeof families / sizeof *families)
@@ -110,18 +180,13 @@ typedef struct {
     double weight;           /* mixture part: as given */
 } part;
 
+/* The intervals whose masses are wanted, [x[i], x[i+1]] for i + 1 < n (x increasing),
+ * and the state range [lo, hi] that a uniform without low or high spans. */
 typedef struct {
-    const double *s;
+    const double *x;
     size_t n;
-    double h;
+    double lo, hi;
 } grid;
-
-/* Returns edge i of the cells (0 <= i <= n): cell i is [edge(i), edge(i + 1)]. Shared
- * edges are computed once, so the cells tile the grid's span without gaps. */
-static double edge(const grid *g, size_t i)
-{
-    return i < g->n ? g->s[i] - g->h / 2 : g->s[g->n - 1] + g->h / 2;
-}
 
 static void part_free(part *pt)
 {
@@ -234,7 +299,7 @@ static lop_status read_params(const lop_config *cfg, const grid *g, part *pt, lo
         const lop_entry *e = lop_config_find(cfg, pt->section, f->keys[k]);
         given[k] = e;
         if (!e && f->grid_defaults) {
-            pt->par[k] = k == 0 ? edge(g, 0) : edge(g, g->n);
+            pt->par[k] = k == 0 ? g->lo : g->hi;
             continue;
         }
         if (!e)
@@ -253,19 +318,8 @@ static lop_status read_params(const lop_config *cfg, const grid *g, part *pt, lo
         const lop_entry *e = given[1] ? given[1] : given[0];
         return lop_error_input(err, cfg->path, e->line, e->section, e->key,
                                "low (%.15g%s) must be below high (%.15g%s)", pt->par[0],
-                               given[0] ? "" : ", the grid's lower cell edge", pt->par[1],
-                               given[1] ? "" : ", the grid's upper cell edge");
-    }
-    if (f->grid_in_support) {
-        double lo = edge(g, 0), hi = edge(g, g->n), slack = UNIT_SLACK * g->h;
-        if (lo < f->support_lo - slack || hi > f->support_hi + slack)
-            return lop_error_input(
-                err, cfg->path, pt->family_line, pt->section, "family",
-                "the %s family lives on [%g, %g] but the grid's cells span [%.10g, %.10g] "
-                "(each cell reaches h/2 = %g past its point): the grid must lie inside "
-                "[%g, %g], e.g. from = h/2 and to = 1 - h/2",
-                f->name, f->support_lo, f->support_hi, lo, hi, g->h / 2, f->support_lo,
-                f->support_hi);
+                               given[0] ? "" : ", the grid's `from`", pt->par[1],
+                               given[1] ? "" : ", the grid's `to`");
     }
     return LOP_OK;
 }
@@ -463,26 +517,62 @@ static bool tails(const part *pt, double x, double *p, double *q)
     return *p >= 0 && *p <= 1 && *q >= 0 && *q <= 1;
 }
 
-/* Adds w times the cell masses of a family with a CDF to mass, and w times its mass
- * beyond the outer edges to *outside. Cell [a, b] gets P(b) - P(a) below the median,
- * Q(a) - Q(b) above it and 1 - P(a) - Q(b) across it: a difference of two small tails
- * keeps its relative precision far out where P(b) - P(a) would round to 0. */
-static lop_status add_cdf(const lop_config *cfg, const part *pt, double w, const grid *g,
-                          double *mass, double *outside, lop_error *err)
+/* Returns log(e^a - e^b) for a >= b (-inf when they are equal). */
+static double log_diff(double a, double b)
 {
-    double pa = 0, qa = 1, pb = 0, qb = 1;
-    for (size_t i = 0; i <= g->n; i++) {
-        double x = edge(g, i);
+    return a == -INFINITY || b >= a ? -INFINITY : a + log1p(-exp(b - a));
+}
+
+/* Returns log(e^a + e^b). */
+static double log_add(double a, double b)
+{
+    if (a < b) {
+        double t = a;
+        a = b;
+        b = t;
+    }
+    return a == -INFINITY ? a : a + log1p(exp(b - a));
+}
+
+/* Returns the log of the mass of [a, b] given both tails at each end: P(b) - P(a) below
+ * the median, Q(a) - Q(b) above it, 1 - P(a) - Q(b) across it, so a difference of two
+ * small tails keeps its relative precision. Far out, where that difference underflows,
+ * the log tails take over (log_diff), or, for a family without them, the log density at
+ * the middle times the width (second-order accurate in the width). */
+static double log_cell(const part *pt, double a, double b, double pa, double qa, double pb,
+                       double qb)
+{
+    const family_spec *f = pt->family;
+    double m = pb <= 0.5 ? pb - pa : qa <= 0.5 ? qa - qb : (1 - pa) - qb;
+    if (m > TINY_MASS || !(b > a))
+        return m > 0 ? log(m) : -INFINITY;
+    double lo = fmax(a, f->support_lo), hi = fmin(b, f->support_hi);
+    if (!(hi > lo))
+        return -INFINITY;
+    if (f->log_lower && pb <= 0.5)
+        return log_diff(f->log_lower(pt->par, hi), f->log_lower(pt->par, lo));
+    if (f->log_upper && qa <= 0.5)
+        return log_diff(f->log_upper(pt->par, lo), f->log_upper(pt->par, hi));
+    return f->log_density(pt->par, 0.5 * (lo + hi)) + log(hi - lo);
+}
+
+/* Adds (in logs) w times the interval masses of a family with a CDF to log_mass, and w
+ * times its mass beyond the outer edges to *outside. */
+static lop_status add_cdf(const lop_config *cfg, const part *pt, double w, const grid *g,
+                          double *log_mass, double *outside, lop_error *err)
+{
+    double pa = 0, qa = 1, pb = 0, qb = 1, log_w = log(w);
+    for (size_t i = 0; i < g->n; i++) {
+        double x = g->x[i];
         if (!tails(pt, x, &pb, &qb))
             return lop_error_input(err, cfg->path, pt->family_line, pt->section, "family",
                                    "the %s distribution could not be evaluated at %.15g",
                                    pt->family->name, x);
-        if (i == 0) {
+        if (i == 0)
             *outside += w * pb;
-        } else {
-            double m = pb <= 0.5 ? pb - pa : qa <= 0.5 ? qa - qb : (1 - pa) - qb;
-            mass[i - 1] += w * fmax(m, 0);
-        }
+        else
+            log_mass[i - 1] = log_add(log_mass[i - 1],
+                                      log_w + log_cell(pt, g->x[i - 1], x, pa, qa, pb, qb));
         pa = pb;
         qa = qb;
     }
@@ -509,62 +599,61 @@ static double table_integral(const part *pt, double lo, double hi, size_t *j)
     return sum;
 }
 
-/* Adds w times the table's cell masses (its density normalized by its area) to mass,
- * and w times its mass beyond the outer edges to *outside. */
-static void add_table(const part *pt, double w, const grid *g, double *mass, double *outside)
+/* Adds (in logs) w times the table's interval masses (its density normalized by its
+ * area) to log_mass, and w times its mass beyond the outer edges to *outside. */
+static void add_table(const part *pt, double w, const grid *g, double *log_mass,
+                      double *outside)
 {
     size_t j = 0;
-    double lo = edge(g, 0), hi = edge(g, g->n);
+    double lo = g->x[0], hi = g->x[g->n - 1];
     double beyond = lo > pt->at[0] ? table_integral(pt, pt->at[0], lo, &j) : 0;
-    double a = lo;
-    for (size_t i = 0; i < g->n; i++) {
-        double b = edge(g, i + 1);
-        mass[i] += w * table_integral(pt, a, b, &j) / pt->total;
-        a = b;
-    }
+    for (size_t i = 0; i + 1 < g->n; i++)
+        log_mass[i] = log_add(log_mass[i],
+                              log(w * table_integral(pt, g->x[i], g->x[i + 1], &j) / pt->total));
     if (hi < pt->at[pt->m - 1])
         beyond += table_integral(pt, hi, pt->at[pt->m - 1], &j);
     *outside += w * beyond / pt->total;
 }
 
 static lop_status add_part(const lop_config *cfg, const part *pt, double w, const grid *g,
-                           double *mass, double *outside, lop_error *err)
+                           double *log_mass, double *outside, lop_error *err)
 {
+    if (w == 0)
+        return LOP_OK;
     if (pt->family->kind == KIND_TABLE) {
-        add_table(pt, w, g, mass, outside);
+        add_table(pt, w, g, log_mass, outside);
         return LOP_OK;
     }
-    return add_cdf(cfg, pt, w, g, mass, outside, err);
+    return add_cdf(cfg, pt, w, g, log_mass, outside, err);
 }
 
-lop_status lop_prior_cells(const lop_config *cfg, const double *s, size_t n, double h,
-                           double *mass, double *outside, lop_error *err)
+/* Returns LOP_OK after writing the log prior masses of the intervals of g (not
+ * renormalized) and the mass beyond its outer edges. */
+static lop_status log_masses(const lop_config *cfg, const grid *g, double *log_mass,
+                             double *outside, lop_error *err)
 {
-    if (n == 0 || !(h > 0) || !isfinite(h))
-        return lop_error_run(err, "a prior grid needs at least one point and a spacing > 0");
     if (!lop_config_section(cfg, "prior"))
         return lop_error_input(err, cfg->path, 0, "prior", NULL,
                                "missing section: [prior] with a family for the states on "
                                "a grid");
-    grid g = {s, n, h};
     part top = {0};
     part *parts = NULL;
     lop_list names = {0};
-    lop_status status = read_part(cfg, "prior", false, &g, &top, err);
+    lop_status status = read_part(cfg, "prior", false, g, &top, err);
     if (status == LOP_OK && top.family->kind == KIND_MIXTURE)
-        status = read_mixture(cfg, &g, &names, &parts, err);
+        status = read_mixture(cfg, g, &names, &parts, err);
     if (status == LOP_OK)
         status = check_part_sections(cfg, &top, &names, err);
     if (status == LOP_OK) {
-        for (size_t i = 0; i < n; i++)
-            mass[i] = 0;
+        for (size_t i = 0; i + 1 < g->n; i++)
+            log_mass[i] = -INFINITY;
         *outside = 0;
         if (top.family->kind == KIND_MIXTURE) {
             /* mass = sum_k w_k mass_k with the weights normalized; likewise outside. */
             for (size_t k = 0; k < names.n && status == LOP_OK; k++)
-                status = add_part(cfg, &parts[k], parts[k].weight, &g, mass, outside, err);
+                status = add_part(cfg, &parts[k], parts[k].weight, g, log_mass, outside, err);
         } else {
-            status = add_part(cfg, &top, 1, &g, mass, outside, err);
+            status = add_part(cfg, &top, 1, g, log_mass, outside, err);
         }
     }
     if (parts)
@@ -576,22 +665,68 @@ lop_status lop_prior_cells(const lop_config *cfg, const double *s, size_t n, dou
     return status;
 }
 
-lop_status lop_prior_grid(const lop_config *cfg, const double *s, size_t n, double h,
-                          double *mass, double *outside, lop_error *err)
+lop_status lop_prior_log_cells(const lop_config *cfg, const double *s, size_t n, double h,
+                               double *log_mass, double *outside, lop_error *err)
 {
-    if (lop_prior_cells(cfg, s, n, h, mass, outside, err) != LOP_OK)
+    if (n < 2 || !(h > 0) || !isfinite(h))
+        return lop_error_run(err, "a prior grid needs at least two points and a spacing > 0");
+    double *x = malloc((n + 1) * sizeof *x);
+    if (!x)
+        return lop_error_run(err, "out of memory");
+    /* Cell i is [s_i - h/2, s_i + h/2] clipped to the range [s_0, s_{n-1}]: the end
+     * cells are halves, and the cells tile the range exactly. */
+    x[0] = s[0];
+    for (size_t i = 1; i < n; i++)
+        x[i] = s[i] - h / 2;
+    x[n] = s[n - 1];
+    grid g = {x, n + 1, s[0], s[n - 1]};
+    lop_status st = log_masses(cfg, &g, log_mass, outside, err);
+    free(x);
+    return st;
+}
+
+lop_status lop_prior_cells(const lop_config *cfg, const double *s, size_t n, double h,
+                           double *mass, double *outside, lop_error *err)
+{
+    if (lop_prior_log_cells(cfg, s, n, h, mass, outside, err) != LOP_OK)
         return err->status;
-    double inside = 0;
     for (size_t i = 0; i < n; i++)
-        inside += mass[i];
-    if (!(inside > 0)) {
+        mass[i] = exp(mass[i]);
+    return LOP_OK;
+}
+
+lop_status lop_prior_log_interval(const lop_config *cfg, double lo, double hi,
+                                  double range_lo, double range_hi, double *log_mass,
+                                  lop_error *err)
+{
+    double x[2] = {lo, hi}, outside;
+    grid g = {x, 2, range_lo, range_hi};
+    return log_masses(cfg, &g, log_mass, &outside, err);
+}
+
+lop_status lop_prior_grid(const lop_config *cfg, const double *s, size_t n, double h,
+                          double *log_mass, double *outside, lop_error *err)
+{
+    if (lop_prior_log_cells(cfg, s, n, h, log_mass, outside, err) != LOP_OK)
+        return err->status;
+    double top = -INFINITY;
+    for (size_t i = 0; i < n; i++)
+        top = fmax(top, log_mass[i]);
+    double sum = 0;
+    for (size_t i = 0; top > -INFINITY && i < n; i++)
+        sum += exp(log_mass[i] - top);
+    double log_inside = top + log(sum);
+    /* The renormalized tail of a prior whose bulk lies elsewhere is a valid prior, but a
+     * range holding less than a double's smallest number of its mass is a misplaced
+     * grid or prior, not a question anyone asks. */
+    if (!(log_inside > log(DBL_MIN))) {
         const lop_entry *fe = lop_config_find(cfg, "prior", "family");
         return lop_error_input(err, cfg->path, fe->line, fe->section, fe->key,
-                               "the %s prior puts no mass on the grid's cells (points %.10g "
-                               "to %.10g, spacing %.10g): move the grid or the prior",
-                               fe->value, s[0], s[n - 1], h);
+                               "the %s prior puts no mass on the grid's range %.10g to "
+                               "%.10g (less than 1e-300 of it): move the grid or the prior",
+                               fe->value, s[0], s[n - 1]);
     }
     for (size_t i = 0; i < n; i++)
-        mass[i] /= inside;
+        log_mass[i] -= log_inside;
     return LOP_OK;
 }

@@ -183,8 +183,23 @@ static lop_status build_problem_section(builder *b)
     if (take_text(b, "problem", "title", true, &p->title) != LOP_OK ||
         take_text(b, "problem", "notes", false, &p->notes) != LOP_OK ||
         take_text(b, "problem", "unit", false, &p->unit) != LOP_OK ||
-        take_text(b, "problem", "score_unit", false, &p->score_unit) != LOP_OK)
+        take_text(b, "problem", "score_unit", false, &p->score_unit) != LOP_OK ||
+        pb_number(b, "problem", "accuracy", false, LOP_ACCURACY_DEFAULT, &p->accuracy) != LOP_OK)
         return b->err->status;
+    const lop_entry *acc = pb_find(b, "problem", "accuracy");
+    if (acc && !(p->accuracy >= 1e-12 && p->accuracy <= 0.1))
+        return pb_error(b, acc->line, "problem", "accuracy",
+                        "expected a number from 1e-12 to 0.1 (an error relative to each "
+                        "number's scale), found %s", acc->value);
+    double levels;
+    if (pb_number(b, "problem", "refine", false, 0, &levels) != LOP_OK)
+        return b->err->status;
+    const lop_entry *refine = pb_find(b, "problem", "refine");
+    if (refine && !(levels >= -1 && levels <= LOP_REFINE_MAX && levels == floor(levels)))
+        return pb_error(b, refine->line, "problem", "refine",
+                        "expected a whole number from -1 (half the cells) to %d, found %s",
+                        LOP_REFINE_MAX, refine->value);
+    p->refine = (int)levels;
     return LOP_OK;
 }
 
@@ -231,6 +246,7 @@ static lop_status build_grid_states(builder *b)
                             from, to);
         n = round(cells) + 1;
     }
+    n = lop_problem_refined_cells(n - 1, p->refine) + 1;
     if (n > limit)
         return pb_error(b, size_entry ? size_entry->line : pb_section_line(b, "states"),
                         "states", size_entry ? size_entry->key : "points",
@@ -321,11 +337,16 @@ static lop_status build_grid_prior(builder *b)
         return pb_error(b, weights->line, "prior", "weights",
                         "a grid of states takes a prior `family`, not weights");
     p->prior = malloc(p->n_states * sizeof *p->prior);
-    if (!p->prior)
+    p->log_prior = malloc(p->n_states * sizeof *p->log_prior);
+    if (!p->prior || !p->log_prior)
         return pb_no_memory(b);
     p->prior_given_sum = 1;
-    return lop_prior_grid(b->cfg, p->state_values, p->n_states, p->step, p->prior,
-                          &p->prior_outside, b->err);
+    if (lop_prior_grid(b->cfg, p->state_values, p->n_states, p->step, p->log_prior,
+                       &p->prior_outside, b->err) != LOP_OK)
+        return b->err->status;
+    for (size_t i = 0; i < p->n_states; i++)
+        p->prior[i] = exp(p->log_prior[i]);
+    return LOP_OK;
 }
 
 static lop_status build_prior(builder *b)
@@ -362,8 +383,13 @@ static lop_status build_prior(builder *b)
     if (!(sum > 0))
         return pb_error(b, e->line, "prior", "weights",
                         "the weights sum to 0: at least one state needs weight");
-    for (size_t i = 0; i < n; i++)
+    p->log_prior = malloc(n * sizeof *p->log_prior);
+    if (!p->log_prior)
+        return pb_no_memory(b);
+    for (size_t i = 0; i < n; i++) {
         p->prior[i] /= sum;
+        p->log_prior[i] = log(p->prior[i]);
+    }
     p->prior_given_sum = sum;
     return LOP_OK;
 }
@@ -503,6 +529,11 @@ lop_problem *pb_build_nested(const lop_config *cfg, lop_error *err)
     return build(cfg, true, err);
 }
 
+double lop_problem_refined_cells(double cells, int refine)
+{
+    return refine >= 0 ? cells * ldexp(1, refine) : ceil(cells / 2);
+}
+
 bool lop_problem_numeric_states(const lop_problem *p)
 {
     return p->states_kind != LOP_STATES_LABELS;
@@ -556,6 +587,8 @@ void lop_problem_free(lop_problem *p)
     free_strings(p->state_labels, p->states_kind == LOP_STATES_GRID ? 0 : p->n_states);
     free(p->state_values);
     free(p->prior);
+    free(p->perfect);
+    free(p->log_prior);
     free_strings(p->actions, p->n_actions);
     free(p->estimates);
     free(p->loss);

@@ -508,7 +508,7 @@ static lop_status check_observations_possible(builder *b)
     lop_evidence_add_observed(p, ll);
     bool possible = false;
     for (size_t s = 0; s < p->n_states && !possible; s++)
-        possible = p->prior[s] > 0 && ll[s] > -INFINITY;
+        possible = p->log_prior[s] > -INFINITY && ll[s] > -INFINITY;
     free(ll);
     if (possible)
         return LOP_OK;

@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "lopside/interp.h"
+#include "lopside/prior.h"
 #include "lopside/keys.h"
 #include "problem_build.h"
 
@@ -113,6 +114,64 @@ static lop_status read_increasing(builder *b, const char *section, const char *k
 }
 
 
+/* Writes to *out (n_states x (n_cuts + 1), caller frees) the share of each state cell's
+ * prior mass that lies in each band, so a band edge falls exactly where the file puts
+ * it, wherever that is in a cell (on a grid point it splits the cell in two). A cell
+ * the prior gives no mass is split by length. */
+static lop_status band_shares(builder *b, const double *cuts, size_t n_cuts, double **out)
+{
+    lop_problem *p = b->p;
+    size_t width = n_cuts + 1;
+    double *share = calloc(p->n_states * width, sizeof *share);
+    double *log_piece = malloc(width * sizeof *log_piece);
+    if (!share || !log_piece) {
+        free(share);
+        free(log_piece);
+        return pb_no_memory(b);
+    }
+    double from = p->state_values[0], to = p->state_values[p->n_states - 1];
+    size_t band = 0;
+    for (size_t s = 0; s < p->n_states; s++) {
+        double lo = fmax(from, p->state_values[s] - p->step / 2);
+        double hi = fmin(to, p->state_values[s] + p->step / 2);
+        while (band < n_cuts && cuts[band] <= lo)
+            band++;
+        double *row = &share[s * width];
+        if (band == n_cuts || cuts[band] >= hi) {
+            row[band] = 1;
+            continue;
+        }
+        /* Cuts inside the cell: the prior mass of each piece, in logs, shifted by the
+         * largest before exp. */
+        double top = -INFINITY;
+        size_t first = band;
+        for (double a = lo; a < hi; band++) {
+            double z = band < n_cuts && cuts[band] < hi ? cuts[band] : hi;
+            if (lop_prior_log_interval(b->cfg, a, z, from, to, &log_piece[band], b->err) !=
+                LOP_OK) {
+                free(share);
+                free(log_piece);
+                return b->err->status;
+            }
+            top = fmax(top, log_piece[band]);
+            row[band] = z - a;
+            a = z;
+        }
+        band--; /* the band of the cell's upper edge */
+        double sum = 0;
+        for (size_t k = first; k <= band; k++) {
+            if (top > -INFINITY)
+                row[k] = exp(log_piece[k] - top);
+            sum += row[k];
+        }
+        for (size_t k = first; k <= band; k++)
+            row[k] /= sum;
+    }
+    free(log_piece);
+    *out = share;
+    return LOP_OK;
+}
+
 static lop_status build_choice_scores(builder *b, const char *section)
 {
     lop_problem *p = b->p;
@@ -154,25 +213,44 @@ static lop_status build_choice_scores(builder *b, const char *section)
         return b->err->status;
     }
     size_t width = cuts ? n_knots + 1 : n_knots;
-    lop_status st = LOP_OK;
+    double *share = NULL;
+    lop_status st = cuts ? band_shares(b, knots, n_knots, &share) : LOP_OK;
+    /* least[band]: the least loss of any action in the band, for the loss with the state
+     * known; a cell split by a cut averages it over its bands, as it does each loss. */
+    double *least = cuts ? malloc(width * sizeof *least) : NULL;
+    if (cuts && st == LOP_OK && !least)
+        st = pb_no_memory(b);
+    for (size_t k = 0; least && k < width; k++)
+        least[k] = INFINITY;
     for (size_t a = 0; a < p->n_actions && st == LOP_OK; a++) {
         double *row = NULL;
         st = read_row(b, section, a, width, cuts ? "band" : "`at` point", &row);
+        for (size_t k = 0; least && st == LOP_OK && k < width; k++)
+            least[k] = fmin(least[k], sign * row[k]);
         for (size_t s = 0; st == LOP_OK && s < p->n_states; s++) {
-            double x = p->state_values[s];
-            double v;
+            double v = 0;
             if (cuts) {
-                size_t band = 0; /* a state on a cut belongs to the band above it */
-                while (band < n_knots && x >= knots[band])
-                    band++;
-                v = row[band];
+                for (size_t band = 0; band < width; band++)
+                    if (share[s * width + band] > 0)
+                        v += share[s * width + band] * row[band];
             } else {
-                v = lop_interp_linear(knots, row, n_knots, x);
+                v = lop_interp_linear(knots, row, n_knots, p->state_values[s]);
             }
             p->loss[a * p->n_states + s] = sign * v;
         }
         free(row);
     }
+    if (cuts && st == LOP_OK) {
+        p->perfect = calloc(p->n_states, sizeof *p->perfect);
+        if (!p->perfect)
+            st = pb_no_memory(b);
+        for (size_t s = 0; st == LOP_OK && s < p->n_states; s++)
+            for (size_t band = 0; band < width; band++)
+                if (share[s * width + band] > 0)
+                    p->perfect[s] += share[s * width + band] * least[band];
+    }
+    free(least);
+    free(share);
     free(knots);
     return st;
 }

@@ -80,19 +80,6 @@ static void rates_intervals(const lop_problem *p, const lop_rule_result *rule, d
     }
 }
 
-/* Counts on the generic path: P(x_m | s) summed over the whole numbers deciding a. */
-static void rates_counts(const lop_problem *p, const lop_rule_result *rule, double *rates)
-{
-    size_t S = p->n_states, m = rule->n_grid;
-    const lop_channel *c = &p->channels[rule->numeric_channel];
-    for (size_t s = 0; s < S; s++)
-        for (size_t i = 0; i < m; i++) {
-            double ll = lop_evidence_log_summary(c, s, rule->grid[i], c->repeats);
-            if (ll > -INFINITY)
-                rates[rule->grid_action[i] * S + s] += exp(ll);
-        }
-}
-
 bool lop_rates_by_state(const lop_problem *p, const lop_results *r, double *rates)
 {
     if (p->estimate || (r->has_rule && !r->rule.computed))
@@ -102,12 +89,10 @@ bool lop_rates_by_state(const lop_problem *p, const lop_results *r, double *rate
     if (!r->has_rule) {
         for (size_t s = 0; s < S; s++)
             rates[r->rule.prior_only_action * S + s] = 1;
-    } else if (r->rule.count_grid) {
-        rates_counts(p, &r->rule, rates);
     } else {
-        /* Continuous measurements: the switch points are refined by root finding on both
-         * paths, so the masses between them are exact and move smoothly with the
-         * problem's numbers (a sum over grid cells would step as cells change sides). */
+        /* The masses between switch points, by the channel's CDF over the whole support:
+         * exact, and smooth in the problem's numbers (a sum over grid cells would step as
+         * cells change sides). Counts switch at the first count of the new action. */
         rates_intervals(p, &r->rule, rates);
     }
     return true;
@@ -118,13 +103,6 @@ bool lop_rates_overall(const lop_problem *p, const lop_results *r, double *rates
     if (p->estimate || (r->has_rule && !r->rule.computed))
         return false;
     memset(rates, 0, p->n_actions * sizeof *rates);
-    const lop_rule_result *rule = &r->rule;
-    if (r->has_rule && rule->count_grid) {
-        /* grid_weight is P(count) before any evidence: no pass over the states needed. */
-        for (size_t i = 0; i < rule->n_grid; i++)
-            rates[rule->grid_action[i]] += rule->grid_weight[i];
-        return true;
-    }
     double *by_state = malloc(p->n_actions * p->n_states * sizeof *by_state);
     if (!by_state || !lop_rates_by_state(p, r, by_state)) {
         free(by_state);
@@ -137,30 +115,6 @@ bool lop_rates_overall(const lop_problem *p, const lop_results *r, double *rates
     return true;
 }
 
-/* Returns P(summary >= t | s) for the channel's repeats: the upper-tail mass for
- * continuous noise, P(X >= ceil t) for counts. */
-static double rates_above(const lop_channel *c, size_t s, double t)
-{
-    size_t n = c->repeats;
-    if (!lop_evidence_is_count(c))
-        return lop_evidence_summary_mass(c, s, t, INFINITY, n);
-    /* Counts: P(X >= k) = P(X > k - 1) with k the first whole number at or above t. */
-    double k = ceil(t);
-    if (k <= 0)
-        return 1;
-    double r = c->center[s];
-    if (c->noise == LOP_NOISE_POISSON) {
-        double mu = (double)n * c->window * r;
-        return mu > 0 ? gsl_cdf_poisson_Q((unsigned)(k - 1), mu) : 0;
-    }
-    double trials = (double)(n * c->trials);
-    if (k > trials)
-        return 0;
-    if (r >= 1)
-        return 1;
-    return r > 0 ? gsl_cdf_binomial_Q((unsigned)(k - 1), r, (unsigned)trials) : 0;
-}
-
 double lop_rates_threshold(const lop_problem *p, const lop_channel *c, double t, bool by_state,
                            double *rates)
 {
@@ -169,7 +123,7 @@ double lop_rates_threshold(const lop_problem *p, const lop_channel *c, double t,
         memset(rates, 0, (by_state ? 2 * S : 2) * sizeof *rates);
     double total = 0;
     for (size_t s = 0; s < S; s++) {
-        double q = rates_above(c, s, t);
+        double q = lop_evidence_summary_mass(c, s, t, INFINITY, c->repeats);
         total += p->prior[s] *
                  ((1 - q) * lop_problem_loss(p, 0, s) + q * lop_problem_loss(p, 1, s));
         if (!rates)
@@ -199,16 +153,14 @@ static double slope_at(double t, void *param)
     const lop_problem *p = ctx->p;
     double top = -INFINITY;
     for (size_t s = 0; s < p->n_states; s++)
-        if (p->prior[s] > 0)
-            top = fmax(top, log(p->prior[s]) +
-                                lop_evidence_log_summary(ctx->c, s, t, ctx->c->repeats));
+        top = fmax(top, p->log_prior[s] + lop_evidence_log_summary(ctx->c, s, t, ctx->c->repeats));
     if (top == -INFINITY)
         return 0;
     double d = 0;
     for (size_t s = 0; s < p->n_states; s++) {
-        if (p->prior[s] == 0)
+        if (p->log_prior[s] == -INFINITY)
             continue;
-        double ll = log(p->prior[s]) + lop_evidence_log_summary(ctx->c, s, t, ctx->c->repeats);
+        double ll = p->log_prior[s] + lop_evidence_log_summary(ctx->c, s, t, ctx->c->repeats);
         d += (lop_problem_loss(p, 0, s) - lop_problem_loss(p, 1, s)) * exp(ll - top);
     }
     return d;

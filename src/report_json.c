@@ -259,6 +259,39 @@ static json_t *rules_json(const lop_problem *p, const lop_results *r)
 
 /* {ACTION: {STATE: value}} for finite states, {ACTION: value} for grid states: choice
  * counts (rates = false) or shares of each state's trials (rates = true). */
+/* accuracy: what was asked, the worst estimated error reached (relative to its scale)
+ * and the numbers that miss; `estimated` false when nothing rests on a grid. */
+static json_t *accuracy_json(const lop_accuracy *a)
+{
+    json_t *obj = json_object();
+    json_object_set_new(obj, "asked", lop_json_number(a->asked));
+    json_object_set_new(obj, "estimated", json_boolean(a->estimated));
+    json_object_set_new(obj, "reached", lop_json_number(a->reached));
+    json_t *worst = json_object();
+    json_object_set_new(worst, "quantity", a->worst[0] ? json_string(a->worst) : json_null());
+    json_object_set_new(worst, "error", lop_json_number(a->worst_error));
+    json_object_set_new(obj, "worst", worst);
+    json_t *missed = json_array();
+    for (size_t i = 0; i < a->n_missed; i++) {
+        json_t *m = json_object();
+        json_object_set_new(m, "quantity", json_string(a->missed[i].name));
+        json_object_set_new(m, "error", lop_json_number(a->missed[i].error));
+        json_object_set_new(m, "allowed", lop_json_number(a->missed[i].allowed));
+        json_array_append_new(missed, m);
+    }
+    json_object_set_new(obj, "missed", missed);
+    json_object_set_new(obj, "compared", json_integer((json_int_t)a->compared));
+    json_object_set_new(obj, "unmatched", json_integer((json_int_t)a->unmatched));
+    json_object_set_new(obj, "state_points", json_integer((json_int_t)a->state_points));
+    json_object_set_new(obj, "refine", json_integer(a->refine));
+    json_t *scales = json_object();
+    json_object_set_new(scales, "score", lop_json_number(a->score_scale));
+    json_object_set_new(scales, "state_range", lop_json_number(a->state_range));
+    json_object_set_new(scales, "measurement_span", lop_json_number(a->measurement_span));
+    json_object_set_new(obj, "scales", scales);
+    return obj;
+}
+
 static json_t *choices_json(const lop_problem *p, const lop_simulated_rule *m, bool rates)
 {
     json_t *obj = json_object();
@@ -381,6 +414,7 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     json_object_set_new(timing, "case_seconds", lop_json_number(r->seconds_case));
     json_object_set_new(timing, "rule_seconds", lop_json_number(r->seconds_rule));
     json_object_set_new(root, "timing", timing);
+    json_object_set_new(root, "accuracy", accuracy_json(&r->accuracy));
     json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));
 
     lop_outfile out;

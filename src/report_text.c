@@ -420,6 +420,31 @@ static void print_simulation(FILE *out, const lop_problem *p, const lop_results 
                 (double)sim->sessions * (double)sim->trials / sim->seconds / 1e6);
 }
 
+/* One line on how close the numbers are to the continuous model, and the numbers that
+ * miss the accuracy asked, if any. */
+static void print_accuracy(FILE *out, const lop_results *r)
+{
+    const lop_accuracy *a = &r->accuracy;
+    fputs("\nAccuracy\n", out);
+    if (!a->estimated) {
+        fprintf(out, "  asked %.3g; nothing rests on a grid: exact up to rounding\n", a->asked);
+        return;
+    }
+    fprintf(out, "  asked %.3g, reached %.3g (estimated from the grids at two steps", a->asked,
+            a->reached);
+    if (a->state_points)
+        fprintf(out, "; %zu state points", a->state_points);
+    fprintf(out, ")%s\n", a->reached <= a->asked ? "" : ": NOT REACHED");
+    if (a->worst[0])
+        fprintf(out, "  largest error: %s, about %.3g\n", a->worst, a->worst_error);
+    size_t shown = a->n_missed < 10 ? a->n_missed : 10;
+    for (size_t i = 0; i < shown; i++)
+        fprintf(out, "  misses: %s, error about %.3g where %.3g is allowed\n",
+                a->missed[i].name, a->missed[i].error, a->missed[i].allowed);
+    if (a->n_missed > shown)
+        fprintf(out, "  ... and %zu more (the JSON lists them all)\n", a->n_missed - shown);
+}
+
 void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
                      const lop_provenance *prov)
 {
@@ -432,6 +457,7 @@ void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
     lop_report_text_studies(out, p, r);
     if (r->simulation.run)
         print_simulation(out, p, r);
+    print_accuracy(out, r);
     if (r->n_warnings) {
         fputs("\nWarnings\n", out);
         for (size_t i = 0; i < r->n_warnings; i++)

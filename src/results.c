@@ -53,6 +53,7 @@ void lop_results_free(lop_results *r)
 {
     if (!r)
         return;
+    free(r->accuracy.missed);
     free(r->kase.posterior);
     free(r->kase.expected_loss);
     free(r->kase.tied);

@@ -181,26 +181,52 @@ lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why
     return LOP_OK;
 }
 
+/* Returns the risk under p of deciding a on the measurements in [lo, hi) of the one
+ * numeric channel c: the loss integrated exactly with c's CDF, state by state. */
+static double interval_risk(const lop_problem *p, const lop_channel *c, size_t a, double lo,
+                            double hi)
+{
+    double total = 0;
+    for (size_t s = 0; s < p->n_states; s++)
+        if (p->prior[s] > 0)
+            total += p->prior[s] * lop_problem_loss(p, a, s) *
+                     lop_evidence_summary_mass(c, s, lo, hi, c->repeats);
+    return total;
+}
+
 /* Risk under p of deciding actions[k] on the k-th interval between sorted cut points
- * of the one gaussian channel c: the loss integrated exactly with the normal CDF. */
+ * of the one numeric channel c. */
 static double risk_of_intervals(const lop_problem *p, const lop_channel *c, const double *cuts,
                                 const size_t *actions, size_t n_cuts)
 {
     double total = 0, lo = -INFINITY;
     for (size_t k = 0; k <= n_cuts; k++) {
         double hi = k < n_cuts ? cuts[k] : INFINITY;
-        for (size_t s = 0; s < p->n_states; s++)
-            if (p->prior[s] > 0)
-                total += p->prior[s] * lop_problem_loss(p, actions[k], s) *
-                         lop_evidence_summary_mass(c, s, lo, hi, c->repeats);
+        total += interval_risk(p, c, actions[k], lo, hi);
         lo = hi;
+    }
+    return total;
+}
+
+double lop_rule_risk_between(const lop_problem *p, const lop_channel *c,
+                             const lop_switch_point *switches, size_t n, size_t only)
+{
+    double total = 0, lo = -INFINITY;
+    size_t a = n ? switches[0].from : only;
+    for (size_t k = 0; k <= n; k++) {
+        double hi = k < n ? switches[k].x : INFINITY;
+        total += interval_risk(p, c, a, lo, hi);
+        if (k < n) {
+            a = switches[k].to;
+            lo = hi;
+        }
     }
     return total;
 }
 
 /* [rule.NAME] comparisons on the exact path: a threshold cuts once; a believed rule
  * cuts where its own Bayes rule switches. Both are integrated exactly. */
-static lop_status compare_exact(const lop_problem *p, lop_results *r, lop_error *err)
+lop_status lop_rule_compare_exact(const lop_problem *p, lop_results *r, lop_error *err)
 {
     const lop_channel *c = r->rule.numeric_channel >= 0 ? &p->channels[r->rule.numeric_channel]
                                                         : NULL;
@@ -298,7 +324,7 @@ lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
                                      "is still exact");
     if (!needs_grid_path(p)) {
         lop_status st = solve_table_and_gaussian(p, r, err);
-        return st == LOP_OK && rule->computed ? compare_exact(p, r, err) : st;
+        return st == LOP_OK && rule->computed ? lop_rule_compare_exact(p, r, err) : st;
     }
     if (lop_problem_numeric_channels(p) != 1 || p->n_channels != 1)
         return lop_rule_not_computed(r, err,
@@ -375,7 +401,7 @@ static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
     for (size_t row = 0; row < rule->n_rows; row++) {
         /* Row = one count vector per table channel, the last channel varying fastest. */
         for (size_t s = 0; s < p->n_states; s++)
-            row_logw[s] = log(p->prior[s]);
+            row_logw[s] = p->log_prior[s];
         size_t col = 0;
         for (size_t t = 0; t < n_table; t++) {
             const lop_channel *c = &p->channels[table_channel[t]];

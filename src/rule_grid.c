@@ -14,11 +14,19 @@
 #include "lopside/strutil.h"
 #include "rule_private.h"
 
-/* The automatic measurement grid leaves at most this predictive mass outside: 1e-7 to
- * the prior's tails, the rest to each state's measurement tails (format.md: 1e-6). */
-#define PRIOR_TAIL_MASS 1e-7
-#define NOISE_TAIL_MASS 0.9e-6
+/* The automatic measurement grid leaves at most this predictive mass outside: a share to
+ * the prior's tails, the rest to each state's measurement tails. Choices integrate their
+ * risk exactly between switch points (searched beyond the grid too), so the grid only
+ * brackets them (format.md: 1e-6); estimates integrate over the grid, so it covers all
+ * but 1e-9; counts are summed over every count with predictive mass above 1e-12. */
+#define CHOICE_TAIL_MASS 1e-6
+#define ESTIMATE_TAIL_MASS 1e-9
+#define COUNT_TAIL_MASS 1e-12
+#define PRIOR_TAIL_SHARE 0.1
 #define COUNT_POINTS_MAX 1000000
+/* Beyond the measurement grid, switch points are searched this many sds further out,
+ * where every state's tail mass is below 1e-200. */
+#define FAR_TAIL_SDS 30.0
 /* With a bounded loss, posterior weights below e^-50 of the largest change no decision
  * or expected loss by more than 2e-22 times the number of states, relative: the rule
  * skips their exp. Unbounded losses (LINEX grows exponentially) keep every weight. */
@@ -235,35 +243,60 @@ static void solve_point(const grid_job *job, thread_work *t, lop_results *r, siz
     }
 }
 
-/* The measurement grid: given, or covering all but 1e-6 of the predictive mass. */
+/* Writes to *lo and *hi the summaries that leave at most `tail` of the predictive mass
+ * outside: the prior's extreme cells holding a share of it are skipped, and every
+ * other state leaves the rest in its measurement tails. */
+static void predictive_range(const lop_problem *p, const lop_channel *c, double tail,
+                             double *lo, double *hi)
+{
+    double prior_tail = PRIOR_TAIL_SHARE * tail;
+    size_t first = 0, last = p->n_states - 1;
+    double cum = 0;
+    while (first < last && cum + p->prior[first] <= 0.5 * prior_tail)
+        cum += p->prior[first++];
+    cum = 0;
+    while (last > first && cum + p->prior[last] <= 0.5 * prior_tail)
+        cum += p->prior[last--];
+    *lo = INFINITY;
+    *hi = -INFINITY;
+    double q = 0.5 * (1 - PRIOR_TAIL_SHARE) * tail;
+    bool count = lop_evidence_is_count(c);
+    for (size_t s = first; s <= last; s++) {
+        if (p->log_prior[s] == -INFINITY)
+            continue;
+        /* Count families are stochastically ordered in their parameter: only the
+         * smallest and largest centers matter, and their quantiles are costly. */
+        if (count && s != first && s != last)
+            continue;
+        *lo = fmin(*lo, lop_evidence_summary_quantile(c, s, q, c->repeats));
+        *hi = fmax(*hi, lop_evidence_summary_quantile(c, s, 1 - q, c->repeats));
+    }
+}
+
+/* The measurement grid: given, or covering the predictive mass as the constants above
+ * say. Counts always cover it, whatever range the file gives (a range given for the
+ * design's repeats does not hold the sums of more repeats). */
 static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_result *rule)
 {
     rule->count_grid = lop_evidence_is_count(c);
     double lo = c->grid_from, hi = c->grid_to;
-    if (!c->grid_given) {
-        size_t first = 0, last = p->n_states - 1;
-        double cum = 0;
-        while (first < last && cum + p->prior[first] <= 0.5 * PRIOR_TAIL_MASS)
-            cum += p->prior[first++];
-        cum = 0;
-        while (last > first && cum + p->prior[last] <= 0.5 * PRIOR_TAIL_MASS)
-            cum += p->prior[last--];
-        lo = INFINITY;
-        hi = -INFINITY;
-        double q = 0.5 * NOISE_TAIL_MASS;
-        for (size_t s = first; s <= last; s++) {
-            if (p->prior[s] == 0)
-                continue;
-            /* Count families are stochastically ordered in their parameter: only the
-             * smallest and largest centers matter, and their quantiles are costly. */
-            if (rule->count_grid && s != first && s != last)
-                continue;
-            lo = fmin(lo, lop_evidence_summary_quantile(c, s, q, c->repeats));
-            hi = fmax(hi, lop_evidence_summary_quantile(c, s, 1 - q, c->repeats));
-        }
+    if (!c->grid_given || rule->count_grid) {
+        double tail = rule->count_grid ? COUNT_TAIL_MASS
+                      : p->estimate    ? ESTIMATE_TAIL_MASS
+                                       : CHOICE_TAIL_MASS;
+        double alo, ahi;
+        predictive_range(p, c, tail, &alo, &ahi);
+        lo = c->grid_given ? fmin(lo, alo) : alo;
+        hi = c->grid_given ? fmax(hi, ahi) : ahi;
         if (rule->count_grid && hi == lo)
             hi = lo + 1;
     }
+    if (rule->count_grid) {
+        lo = fmax(0, ceil(lo));
+        hi = floor(hi);
+    }
+    if (rule->count_grid && hi - lo + 1 > COUNT_POINTS_MAX)
+        return -2;
     rule->n_grid = rule->count_grid ? (size_t)(hi - lo) + 1 : c->grid_points;
     if (!rule->count_grid && !c->grid_points_given) {
         double narrowest = INFINITY;
@@ -279,8 +312,13 @@ static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_resul
         if (want > (double)rule->n_grid)
             rule->n_grid = want < AUTO_POINTS_MAX ? (size_t)want : AUTO_POINTS_MAX;
     }
-    if (rule->count_grid && rule->n_grid > COUNT_POINTS_MAX)
-        return -2;
+    /* Estimates integrate over the grid: each level of [problem] refine halves its steps
+     * (choices integrate exactly between switch points, whatever the grid). */
+    if (!rule->count_grid && p->estimate)
+        rule->n_grid = (size_t)lop_problem_refined_cells((double)(rule->n_grid - 1), p->refine) + 1;
+    /* Simpson's rule wants an even number of cells. */
+    if (!rule->count_grid && rule->n_grid % 2 == 0)
+        rule->n_grid++;
     rule->grid = malloc(rule->n_grid * sizeof *rule->grid);
     if (!rule->grid)
         return -1;
@@ -288,6 +326,20 @@ static int build_grid(const lop_problem *p, const lop_channel *c, lop_rule_resul
         rule->grid[i] = rule->count_grid ? lo + (double)i
                                      : lop_grid_point(lo, hi, i, rule->n_grid);
     return 0;
+}
+
+/* Returns the weight of point m of the rule's grid in the integral over measurements,
+ * relative to grid_weight (the cell's mass by the midpoint rule): composite Simpson
+ * (1, 4, 2, ..., 4, 1)/3 per cell for continuous measurements, fourth order in the
+ * cell width for a smooth integrand (Davis & Rabinowitz 1984, Sec. 2.2, from memory),
+ * with the outer points weighted 1/3 over the grid's span; 1 for counts. */
+static double simpson_factor(const lop_rule_result *rule, size_t m)
+{
+    if (rule->count_grid)
+        return 1;
+    if (m == 0 || m + 1 == rule->n_grid)
+        return 1.0 / 3;
+    return m % 2 ? 4.0 / 3 : 2.0 / 3;
 }
 
 /* Posterior expected loss of every action at x, for the switch search. */
@@ -303,26 +355,60 @@ static void expected_at(void *param, double x, double *el)
     lop_decide_expected(ctx->job->p, ctx->t->post, el);
 }
 
+/* The measurements beyond the grid out to where no state has mass left (FAR_TAIL_SDS
+ * sds of the widest state), where unequal spreads can still turn the decision. */
+static void far_ends(const lop_problem *p, const lop_channel *c, const lop_rule_result *rule,
+                     double *far_lo, double *far_hi)
+{
+    double reach = 0;
+    for (size_t s = 0; s < p->n_states; s++)
+        if (p->log_prior[s] > -INFINITY)
+            reach = fmax(reach, FAR_TAIL_SDS * c->spread[s] / sqrt((double)c->repeats));
+    double lo = rule->grid[0], hi = rule->grid[rule->n_grid - 1];
+    if (c->noise == LOP_NOISE_LOGNORMAL) {
+        *far_lo = lo * exp(-reach);
+        *far_hi = hi * exp(reach);
+    } else {
+        *far_lo = lo - reach;
+        *far_hi = hi + reach;
+    }
+}
+
 /* Switch points of choices: refined by root finding between grid points for
  * continuous measurements (splitting the bracket when a third action wins between
- * them); for counts, the first count of the new action. */
+ * them), and beyond the grid's ends; for counts, the first count of the new action. */
 static int find_switches(const grid_job *job, thread_work *t, lop_rule_result *rule)
 {
     switch_ctx ctx = {job, t};
     lop_switch_search search = {expected_at, &ctx, job->p->n_actions,
                                 lop_decide_loss_scale(job->p), t->el};
     lop_switch_list list = {0};
-    for (size_t m = 1; m < rule->n_grid; m++) {
+    size_t m_last = rule->n_grid - 1;
+    double far_lo = 0, far_hi = 0;
+    size_t a_lo = rule->grid_action[0], a_hi = rule->grid_action[m_last];
+    if (!rule->count_grid) {
+        far_ends(job->p, job->c, rule, &far_lo, &far_hi);
+        a_lo = lop_switch_best(&search, far_lo);
+        a_hi = lop_switch_best(&search, far_hi);
+    }
+    int rc = a_lo != rule->grid_action[0]
+                 ? lop_switch_find(&search, far_lo, rule->grid[0], a_lo, rule->grid_action[0], 0,
+                                   &list)
+                 : 0;
+    for (size_t m = 1; m <= m_last && rc == 0; m++) {
         size_t a = rule->grid_action[m - 1], b = rule->grid_action[m];
         if (a == b)
             continue;
-        int rc = rule->count_grid
-                     ? lop_switch_push(&list, rule->grid[m], a, b, 0)
-                     : lop_switch_find(&search, rule->grid[m - 1], rule->grid[m], a, b, 0, &list);
-        if (rc != 0) {
-            free(list.items);
-            return -1;
-        }
+        rc = rule->count_grid
+                 ? lop_switch_push(&list, rule->grid[m], a, b, 0)
+                 : lop_switch_find(&search, rule->grid[m - 1], rule->grid[m], a, b, 0, &list);
+    }
+    if (rc == 0 && a_hi != rule->grid_action[m_last])
+        rc = lop_switch_find(&search, rule->grid[m_last], far_hi, rule->grid_action[m_last],
+                             a_hi, 0, &list);
+    if (rc != 0) {
+        free(list.items);
+        return -1;
     }
     rule->switches = list.items;
     rule->n_switches = list.n;
@@ -349,7 +435,7 @@ static double *log_prior(const lop_problem *p)
 {
     double *lp = malloc(p->n_states * sizeof *lp);
     for (size_t s = 0; lp && s < p->n_states; s++)
-        lp[s] = log(p->prior[s]);
+        lp[s] = p->log_prior[s];
     return lp;
 }
 
@@ -458,24 +544,33 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
         goto done;
     }
 
-    /* Sums in a fixed order, so the result does not depend on the thread count. */
-    rule->bayes_risk = 0;
+    /* Sums in a fixed order, so the result does not depend on the thread count. The
+     * coverage is the predictive mass the grid holds by the same rule; risks of
+     * estimates are divided by it, so a sliver beyond the grid is counted at the
+     * grid's average rather than as a loss of 0. */
+    double bayes_sum = 0;
     rule->coverage = 0;
     for (size_t m = 0; m < rule->n_grid; m++) {
-        rule->bayes_risk += rule->grid_weight[m] * rule->grid_loss[m];
-        rule->coverage += rule->grid_weight[m];
+        double w = rule->grid_weight[m] * simpson_factor(rule, m);
+        bayes_sum += w * rule->grid_loss[m];
+        rule->coverage += w;
     }
-    for (size_t k = 0; k < p->n_rules; k++) {
-        lop_compared_rule *cr = &r->compared[k];
-        if (!cr->grid_decision)
-            continue;
-        cr->risk = 0;
-        for (size_t m = 0; m < rule->n_grid; m++)
-            cr->risk += rule->grid_weight[m] * job.rule_loss[k][m];
-        cr->regret = cr->risk - rule->bayes_risk;
-        cr->computed = true;
-    }
-    if (!p->estimate) {
+    if (p->estimate) {
+        rule->bayes_risk = bayes_sum / rule->coverage;
+        for (size_t k = 0; k < p->n_rules; k++) {
+            lop_compared_rule *cr = &r->compared[k];
+            if (!cr->grid_decision)
+                continue;
+            cr->risk = 0;
+            for (size_t m = 0; m < rule->n_grid; m++)
+                cr->risk += rule->grid_weight[m] * simpson_factor(rule, m) * job.rule_loss[k][m];
+            cr->risk /= rule->coverage;
+            cr->regret = cr->risk - rule->bayes_risk;
+            cr->computed = true;
+        }
+    } else {
+        /* Choices: the loss integrated exactly between the switch points, over the
+         * whole measurement axis, and the compared rules likewise. */
         thread_work *t = thread_work_new(&job);
         if (!t || find_switches(&job, t, rule) != 0) {
             thread_work_free(t, p->n_rules);
@@ -483,9 +578,16 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
             goto done;
         }
         thread_work_free(t, p->n_rules);
+        rule->bayes_risk = lop_rule_risk_between(p, job.c, rule->switches, rule->n_switches,
+                                                 rule->grid_action[0]);
+        rule->exact = true;
+        if (lop_rule_compare_exact(p, r, err) != LOP_OK) {
+            st = err->status;
+            goto done;
+        }
     }
     rule->computed = true;
-    if (fabs(rule->coverage - 1) > COVERAGE_WARN &&
+    if (p->estimate && fabs(rule->coverage - 1) > COVERAGE_WARN &&
         lop_results_warn(r, "[%s]: the measurement grid holds %.4g of the predictive "
                             "probability where it should hold 1, so the Bayes risk is off by "
                             "about that share: the grid is too coarse for the noise (raise "

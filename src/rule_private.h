@@ -16,6 +16,17 @@ lop_status lop_rule_not_computed(lop_results *r, lop_error *err, const char *why
  * numeric channel (grid states, estimates, or noise other than gaussian). */
 lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *err);
 
+/* Returns the risk under p of the rule that decides by the n sorted switch points of
+ * the one numeric channel c (`only` when n is 0), integrated exactly with c's CDF over
+ * the whole measurement axis. */
+double lop_rule_risk_between(const lop_problem *p, const lop_channel *c,
+                             const lop_switch_point *switches, size_t n, size_t only);
+
+/* Returns LOP_OK after filling the risk and regret of each [rule.NAME] of a choice
+ * problem with one numeric channel, integrated exactly: a threshold cuts once; a
+ * believed rule cuts where its own Bayes rule switches. */
+lop_status lop_rule_compare_exact(const lop_problem *p, lop_results *r, lop_error *err);
+
 /* A growing list of switch points. */
 typedef struct {
     lop_switch_point *items;

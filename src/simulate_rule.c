@@ -248,7 +248,7 @@ static int believed_grid_cuts(sim_decider *d, const lop_problem *bp, const lop_r
         lop_evidence_kernel_init(&b.kern, c, bp->n_states, c->repeats) != 0)
         goto done;
     for (size_t s = 0; s < bp->n_states; s++)
-        b.logprior[s] = log(bp->prior[s]);
+        b.logprior[s] = bp->log_prior[s];
     d->first[0] = 0;
     d->first[1] = n_sw;
     d->acts[0] = (size_t)decision[0];
@@ -300,7 +300,7 @@ static const char *direct(sim_decider *d, const lop_problem *p, const lop_proble
         return NULL;
     }
     for (size_t s = 0; s < q->n_states; s++)
-        d->logprior[s] = log(q->prior[s]);
+        d->logprior[s] = q->log_prior[s];
     return NULL;
 }
 

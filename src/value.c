@@ -119,8 +119,8 @@ static lop_status price_channel(const lop_problem *p, lop_results *r, size_t cha
  * post and whose one channel is that one, measured once (Raiffa & Schlaifer 1961,
  * preposterior analysis). Sets *computed false (with *why, the caller frees) when that
  * rule cannot be computed; NAN with err set when memory runs out. */
-static double value_of_next(const lop_problem *p, size_t channel, const double *post, bool *computed,
-                      char **why, lop_error *err)
+static double value_of_next(const lop_problem *p, size_t channel, const double *post,
+                            const double *log_post, bool *computed, char **why, lop_error *err)
 {
     /* A view of p: the case's posterior as the prior, and the one channel measured once.
      * The rule reads nothing else, and nothing of p is changed. */
@@ -131,6 +131,7 @@ static double value_of_next(const lop_problem *p, size_t channel, const double *
     view.channels = &one;
     view.n_channels = 1;
     view.prior = (double *)post;
+    view.log_prior = (double *)log_post;
     view.n_rules = 0;
     view.rules = NULL;
     *computed = false;
@@ -173,14 +174,24 @@ lop_status lop_value_solve(const lop_problem *p, lop_results *r, const lop_progr
     v->next = calloc(spec->n_channels ? spec->n_channels : 1, sizeof *v->next);
     if (!v->next)
         return lop_error_run(err, "out of memory");
+    /* The case's posterior as the prior of one more measurement; a weight that
+     * underflowed to 0 is beyond any effect on a risk. */
+    double *log_post = malloc(p->n_states * sizeof *log_post);
+    if (!log_post)
+        return lop_error_run(err, "out of memory");
+    for (size_t s = 0; s < p->n_states; s++)
+        log_post[s] = log(r->kase.posterior[s]);
     for (size_t k = 0; k < spec->n_channels; k++) {
         lop_value_next *nx = &v->next[k];
         nx->channel = spec->channels[k];
-        nx->value = value_of_next(p, nx->channel, r->kase.posterior, &nx->computed,
-                                   &nx->not_computed_why, err);
-        if (isnan(nx->value))
+        nx->value = value_of_next(p, nx->channel, r->kase.posterior, log_post, &nx->computed,
+                                  &nx->not_computed_why, err);
+        if (isnan(nx->value)) {
+            free(log_post);
             return err->status;
+        }
     }
+    free(log_post);
     if (!r->rule.computed) {
         v->not_computed_why = lop_strdup(r->rule.not_computed_why
                                              ? r->rule.not_computed_why

@@ -17,7 +17,9 @@ double lop_evidence_log_counts(const lop_channel *c, size_t s, const size_t *cou
  * state s (a density for continuous noise, a probability for counts; -inf if impossible). */
 double lop_evidence_log_summary(const lop_channel *c, size_t s, double x, size_t n);
 
-/* Returns P(lo < summary <= hi | s) for n repeats of a continuous numeric channel. */
+/* Returns P(lo < summary <= hi | s) for n repeats of a continuous numeric channel, and
+ * P(lo <= summary < hi | s) for counts (so a switch point at the first count of the new
+ * action bounds both intervals); exact, by CDFs over the whole support. */
 double lop_evidence_summary_mass(const lop_channel *c, size_t s, double lo, double hi,
                                  size_t n);
 

@@ -14,6 +14,10 @@
  * numbers in it (combinations x (outcome counts + states)): about 160 MB. */
 #define LOP_RULE_COMBINATIONS_MAX 1000000
 #define LOP_RULE_CELLS_LIMIT 20000000
+/* [problem] accuracy when the file gives none (design.md), and the most halvings of the
+ * grids that [problem] refine may ask for. */
+#define LOP_ACCURACY_DEFAULT 1e-6
+#define LOP_REFINE_MAX 20
 /* Most cells of a state grid unless the file raises it with [states] max_points. */
 #define LOP_GRID_POINTS_LIMIT 1000000
 
@@ -127,6 +131,9 @@ typedef struct {
 typedef struct lop_problem {
     char *path;              /* the problem file, as given */
     char *title, *notes, *unit, *score_unit;
+    double accuracy;         /* [problem] accuracy: asked of every reported number */
+    int refine;              /* [problem] refine: times the grids' steps are halved (-1:
+                                doubled, the accuracy check's coarse companion) */
 
     lop_states_kind states_kind;
     size_t n_states;
@@ -134,7 +141,8 @@ typedef struct lop_problem {
     double *state_values;    /* values and grid states */
     double step;             /* grid spacing (grid states) */
 
-    double *prior;           /* normalized */
+    double *prior;           /* normalized; far tails may underflow to 0 */
+    double *log_prior;       /* its logs, exact where prior underflows: use these */
     double prior_given_sum;  /* sum of the weights as written (finite states) */
     double prior_outside;    /* prior mass beyond the grid (grid states) */
 
@@ -149,7 +157,11 @@ typedef struct lop_problem {
     size_t n_estimates;
 
     bool payoff;             /* the file gave [payoff]; reports keep that orientation */
-    double *loss;            /* choices: n_actions x n_states, always a loss */
+    double *loss;            /* choices: n_actions x n_states, always a loss; a grid cell
+                                split by a cut holds the mass-weighted mean of its bands */
+    double *perfect;         /* choices over bands: per cell, the loss with the state known
+                                (the mean over its bands of the least loss); NULL: the
+                                least of the cell's losses */
     lop_curve curve;         /* estimates: the loss curve (payoffs negated) */
     double *curve_error, *curve_value; /* owned knots of a `points` curve */
 
@@ -181,6 +193,10 @@ static inline double lop_problem_loss(const lop_problem *p, size_t a, size_t s)
 {
     return p->loss[a * p->n_states + s];
 }
+
+/* Returns the number of cells a grid of `cells` cells gets at [problem] refine level
+ * `refine`: cells·2^refine, or half of them rounded up at -1. */
+double lop_problem_refined_cells(double cells, int refine);
 
 /* Returns true when states are numbers (values or a grid). */
 bool lop_problem_numeric_states(const lop_problem *p);

@@ -227,6 +227,30 @@ typedef struct {
     size_t evaluations;       /* problems solved */
 } lop_design_result;
 
+/* How close the reported numbers are to the continuous model ([problem] accuracy). */
+#define LOP_QUANTITY_NAME 96
+typedef struct {
+    char name[LOP_QUANTITY_NAME];  /* e.g. "rule.bayes_risk" */
+    double error;             /* estimated error, in the number's own unit */
+    double allowed;           /* accuracy times the number's scale */
+} lop_accuracy_miss;
+
+typedef struct {
+    bool estimated;           /* grids were compared (else nothing rests on a grid) */
+    double asked;             /* [problem] accuracy */
+    double reached;           /* largest estimated error relative to its scale */
+    char worst[LOP_QUANTITY_NAME];  /* the number with that error ("" if none) */
+    double worst_error;       /* its estimated error, in its own unit */
+    size_t compared;          /* numbers compared between the grids */
+    size_t unmatched;         /* numbers present on one grid only (e.g. a switch point) */
+    size_t n_missed;
+    lop_accuracy_miss *missed;/* numbers whose estimated error exceeds what is allowed */
+    size_t state_points;      /* the state grid solved on (0: no state grid) */
+    int refine;               /* [problem] refine of that grid */
+    double score_scale, state_range, measurement_span;  /* the scales of the contract */
+    size_t n_clamped;         /* numbers set onto a bound they passed within accuracy */
+} lop_accuracy;
+
 typedef struct {
     lop_case_result kase;
     bool has_rule;            /* the problem has evidence */
@@ -243,6 +267,7 @@ typedef struct {
     size_t n_designs;
     lop_design_result *designs; /* one per [design.NAME] */
     double seconds_case, seconds_rule;  /* wall time of each part, for benchmarks */
+    lop_accuracy accuracy;      /* filled by lop_accuracy_solve */
 } lop_results;
 
 /* Returns empty results sized for p, or NULL when memory runs out. */

@@ -48,14 +48,26 @@ static void cells_of(const char *text, const test_grid *g, double *mass, double 
     lop_config_free(cfg);
 }
 
-/* The renormalized masses of text on g. */
+/* The renormalized masses of text on g (lop_prior_grid writes their logs). */
 static void grid_of_prior(const char *text, const test_grid *g, double *mass, double *outside)
 {
     lop_config *cfg = config_of(text);
     lop_error err = {0};
     lop_status st = lop_prior_grid(cfg, g->s, g->n, g->h, mass, outside, &err);
     ck_assert_msg(st == LOP_OK, "lop_prior_grid failed: line %d: %s", err.line, err.message);
+    for (size_t i = 0; i < g->n; i++)
+        mass[i] = exp(mass[i]);
     lop_config_free(cfg);
+}
+
+/* Cell i of g: [s_i - h/2, s_i + h/2] clipped to the range [s_0, s_{n-1}]. */
+static double cell_lo(const test_grid *g, size_t i)
+{
+    return i == 0 ? g->s[0] : g->s[i] - g->h / 2;
+}
+static double cell_hi(const test_grid *g, size_t i)
+{
+    return i + 1 == g->n ? g->s[g->n - 1] : g->s[i] + g->h / 2;
 }
 
 /* Densities from GSL's gsl_ran_*_pdf, written in the families' own parameters. The
@@ -191,7 +203,7 @@ static double quad_cell(const family_case *c, pdf_params *par, double a, double 
 }
 
 /* Every family: each cell's mass, a difference of CDF values in the module, against
- * QAGS on GSL's density over the cell [s_i - h/2, s_i + h/2] (Piessens et al.,
+ * QAGS on GSL's density over the cell [s_i - h/2, s_i + h/2] clipped to the range (Piessens et al.,
  * QUADPACK, 1983; GSL's gsl_integration_qags). The tolerance is QAGS's own error
  * estimate plus 1e-14 for the rounding of the two CDF values (GSL's incomplete gamma and
  * beta functions are good to a few parts in 1e15). The renormalized masses of
@@ -215,7 +227,7 @@ START_TEST(cells_match_quadrature_of_the_density)
         grid_of_prior(fc->text, &g, norm, &outside2);
         ck_assert_double_eq(outside, outside2);
         for (size_t i = 0; i < g.n; i++) {
-            quad[i] = quad_cell(fc, &par, g.s[i] - g.h / 2, g.s[i] + g.h / 2, ws, &err[i]);
+            quad[i] = quad_cell(fc, &par, cell_lo(&g, i), cell_hi(&g, i), ws, &err[i]);
             quad_sum += quad[i];
             err_sum += err[i];
             ck_assert_msg(fabs(raw[i] - quad[i]) <= err[i] + 1e-14,
@@ -260,7 +272,9 @@ END_TEST
 /* uniform(2.2, 7.7) on the points 0..10 (h = 1): cells [s-1/2, s+1/2] wholly inside get
  * exactly h/(high - low) = 1/5.5; cell 2 = [1.5, 2.5] keeps 0.3/5.5 and cell 8 =
  * [7.5, 8.5] keeps 0.2/5.5 (by hand); no mass is outside. Without low and high the
- * uniform spans the grid's cells, so every point gets 1/n. Tolerance: a few roundings. */
+ * uniform spans the range from the first point to the last, so the n - 2 inner points
+ * get 1/(n - 1) and the two half cells at the ends 1/(2(n - 1)). Tolerance: a few
+ * roundings. */
 START_TEST(uniform_masses_are_the_share_of_the_interval)
 {
     test_grid g = grid_of(0, 10, 11);
@@ -275,30 +289,30 @@ START_TEST(uniform_masses_are_the_share_of_the_interval)
     test_grid g7 = grid_of(-3, 3, 7);
     grid_of_prior("[prior]\nfamily = uniform\n", &g7, mass, &outside);
     for (size_t i = 0; i < g7.n; i++)
-        ck_assert_close(mass[i], 1.0 / 7, 1e-14);
+        ck_assert_close(mass[i], i == 0 || i == 6 ? 1.0 / 12 : 1.0 / 6, 1e-14);
     ck_assert_close(outside, 0, 1e-15);
 }
 END_TEST
 
-/* exponential with mean mu = 2 on the points 0.5, 1, ..., 5 (h = 0.5): cell [a, b] holds
- * exp(-a/mu) - exp(-b/mu) (the CDF 1 - exp(-x/mu), by hand); outside are
- * 1 - exp(-0.25/mu) below and exp(-5.25/mu) above; renormalized masses divide by
- * exp(-0.25/mu) - exp(-5.25/mu). Tolerance: a few roundings of exp. */
+/* exponential with mean mu = 2 on the points 0.5, 1, ..., 5 (h = 0.5, range [0.5, 5]):
+ * cell [a, b] holds exp(-a/mu) - exp(-b/mu) (the CDF 1 - exp(-x/mu), by hand); outside
+ * are 1 - exp(-0.5/mu) below and exp(-5/mu) above; renormalized masses divide by
+ * exp(-0.5/mu) - exp(-5/mu). Tolerance: a few roundings of exp. */
 START_TEST(exponential_masses_match_the_closed_form)
 {
     const double mu = 2;
     test_grid g = grid_of(0.5, 5, 10);
     double mass[MAX_POINTS], norm[MAX_POINTS], outside;
     cells_of("[prior]\nfamily = exponential\nmean = 2\n", &g, mass, &outside);
-    double inside = exp(-0.25 / mu) - exp(-5.25 / mu);
+    double inside = exp(-0.5 / mu) - exp(-5 / mu);
     for (size_t i = 0; i < g.n; i++) {
-        double a = 0.25 + 0.5 * (double)i, b = a + 0.5;
+        double a = cell_lo(&g, i), b = cell_hi(&g, i);
         ck_assert_close(mass[i], exp(-a / mu) - exp(-b / mu), 1e-14);
     }
-    ck_assert_close(outside, (1 - exp(-0.25 / mu)) + exp(-5.25 / mu), 1e-14);
+    ck_assert_close(outside, (1 - exp(-0.5 / mu)) + exp(-5 / mu), 1e-14);
     grid_of_prior("[prior]\nfamily = exponential\nmean = 2\n", &g, norm, &outside);
     for (size_t i = 0; i < g.n; i++) {
-        double a = 0.25 + 0.5 * (double)i, b = a + 0.5;
+        double a = cell_lo(&g, i), b = cell_hi(&g, i);
         ck_assert_close(norm[i], (exp(-a / mu) - exp(-b / mu)) / inside, 1e-14);
     }
 }
@@ -309,7 +323,8 @@ END_TEST
  * hold, by hand: F(0.25) = 0.03125; F(0.75) - F(0.25) = 0.28125 - 0.03125 = 0.25;
  * F(1.25) - F(0.75) = 0.71875 - 0.28125 = 0.4375 (across the peak); then 0.25, 0.03125.
  * The same shape scaled by 4 gives the same masses. On the points 0, 0.5, 1 the last
- * cell ends at 1.25, leaving 1 - F(1.25) = 0.75^2/2 = 0.28125 outside.
+ * cell is the half [0.75, 1] holding F(1) - F(0.75) = 0.21875, leaving 1 - F(1) = 0.5
+ * outside.
  * Tolerance: the trapezoids are exact for a linear density, so a few roundings. */
 START_TEST(table_triangle_has_known_cell_integrals)
 {
@@ -328,13 +343,14 @@ START_TEST(table_triangle_has_known_cell_integrals)
     test_grid g3 = grid_of(0, 1, 3);
     cells_of("[prior]\nfamily = table\nat = 0, 1, 2\ndensity = 0, 1, 0\n", &g3, mass,
              &outside);
+    static const double want3[] = {0.03125, 0.25, 0.21875};
     for (size_t i = 0; i < 3; i++)
-        ck_assert_close(mass[i], want[i], 1e-15);
-    ck_assert_close(outside, 0.28125, 1e-15);
+        ck_assert_close(mass[i], want3[i], 1e-15);
+    ck_assert_close(outside, 0.5, 1e-15);
     grid_of_prior("[prior]\nfamily = table\nat = 0, 1, 2\ndensity = 0, 1, 0\n", &g3, mass,
                   &outside);
     for (size_t i = 0; i < 3; i++)
-        ck_assert_close(mass[i], want[i] / (1 - 0.28125), 1e-15);
+        ck_assert_close(mass[i], want3[i] / 0.5, 1e-15);
 }
 END_TEST
 
@@ -363,8 +379,8 @@ START_TEST(mixture_of_two_normals_is_the_weighted_sum)
 }
 END_TEST
 
-/* normal(0, 1) on the points -1, -0.9, ..., 1 (h = 0.1): the cells end at -/+1.05, so
- * 2 Phi(-1.05) = erfc(1.05/sqrt 2) lies outside (Phi(x) = erfc(-x/sqrt 2)/2, C99 erfc);
+/* normal(0, 1) on the points -1, -0.9, ..., 1 (h = 0.1): the range ends at -/+1, so
+ * 2 Phi(-1) = erfc(1/sqrt 2) lies outside (Phi(x) = erfc(-x/sqrt 2)/2, C99 erfc);
  * the renormalized masses sum to 1 and are the raw ones over 1 - outside.
  * Tolerance: Phi and erfc agree to a few roundings. */
 START_TEST(normal_on_a_narrow_grid_leaves_both_tails_outside)
@@ -374,12 +390,12 @@ START_TEST(normal_on_a_narrow_grid_leaves_both_tails_outside)
     double raw[MAX_POINTS], mass[MAX_POINTS], outside, outside_raw, sum = 0;
     cells_of(text, &g, raw, &outside_raw);
     grid_of_prior(text, &g, mass, &outside);
-    ck_assert_close(outside, erfc(1.05 / sqrt(2)), 1e-14);
+    ck_assert_close(outside, erfc(1 / sqrt(2)), 1e-14);
     ck_assert_double_eq(outside, outside_raw);
     ck_assert(outside > LOP_PRIOR_OUTSIDE_WARN); /* the caller would warn here */
     for (size_t i = 0; i < g.n; i++) {
         sum += mass[i];
-        ck_assert_close(mass[i], raw[i] / (1 - erfc(1.05 / sqrt(2))), 1e-13);
+        ck_assert_close(mass[i], raw[i] / (1 - erfc(1 / sqrt(2))), 1e-13);
     }
     ck_assert_close(sum, 1, 1e-14);
     /* Symmetric prior, symmetric grid: symmetric masses. */
@@ -400,7 +416,7 @@ START_TEST(tail_cells_keep_their_relative_precision)
     cells_of("[prior]\nfamily = normal\nmean = 0\nsd = 1\n", &g, up, &out_up);
     cells_of("[prior]\nfamily = normal\nmean = 0\nsd = 1\n", &m, down, &out_down);
     for (size_t i = 0; i < g.n; i++) {
-        double a = g.s[i] - 0.05, b = g.s[i] + 0.05;
+        double a = cell_lo(&g, i), b = cell_hi(&g, i);
         double want = (erfc(a / sqrt(2)) - erfc(b / sqrt(2))) / 2;
         ck_assert_msg(fabs(up[i] - want) <= 1e-10 * want, "upper cell %zu: %.17g vs %.17g", i,
                       up[i], want);
@@ -411,20 +427,51 @@ START_TEST(tail_cells_keep_their_relative_precision)
 }
 END_TEST
 
-/* A beta grid whose cells tile [0, 1] only up to rounding is accepted: 1/6, 1/2, 5/6 as
- * written in the file put the first edge at -3e-17. beta(2, 1) has the CDF x^2, so the
- * cells [0, 1/3], [1/3, 2/3], [2/3, 1] hold 1/9, 3/9 and 5/9 (by hand).
+/* A beta prior on a grid from 0 to 1, the grid everyone writes for a probability: the
+ * cells are clipped to the range, so beta(2, 1) (CDF x^2) on 0, 0.5, 1 holds 1/16 in
+ * [0, 1/4], 8/16 in [1/4, 3/4] and 7/16 in [3/4, 1] (by hand); beta(1/2, 1/2), whose
+ * density is infinite at both ends, has the arcsine CDF (2/pi) asin(sqrt x) (Feller
+ * 1968, III.4, from memory), so the end cells hold (2/pi) asin(1/2) = 1/3 each.
  * Tolerance: a few roundings. */
-START_TEST(beta_grid_at_the_ends_of_the_unit_interval_up_to_rounding)
+START_TEST(beta_grid_from_0_to_1_is_clipped_to_the_support)
 {
-    test_grid g = grid_of(0.16666666666666666, 0.83333333333333337, 3);
-    ck_assert(g.s[0] - g.h / 2 < 0); /* the case this test is about */
+    test_grid g = grid_of(0, 1, 3);
     double mass[MAX_POINTS], outside;
     cells_of("[prior]\nfamily = beta\nalpha = 2\nbeta = 1\n", &g, mass, &outside);
-    ck_assert_close(mass[0], 1.0 / 9, 1e-15);
-    ck_assert_close(mass[1], 3.0 / 9, 1e-15);
-    ck_assert_close(mass[2], 5.0 / 9, 1e-15);
+    ck_assert_close(mass[0], 1.0 / 16, 1e-15);
+    ck_assert_close(mass[1], 8.0 / 16, 1e-15);
+    ck_assert_close(mass[2], 7.0 / 16, 1e-15);
     ck_assert_close(outside, 0, 1e-15);
+    cells_of("[prior]\nfamily = beta\nalpha = 0.5\nbeta = 0.5\n", &g, mass, &outside);
+    ck_assert_close(mass[0], 1.0 / 3, 1e-14);
+    ck_assert_close(mass[1], 1.0 / 3, 1e-14);
+    ck_assert_close(mass[2], 1.0 / 3, 1e-14);
+}
+END_TEST
+
+/* A normal(0, 1) prior on a grid from 0 to 61: the cells beyond about 38 sd hold less
+ * than the smallest double, yet keep exact logs, so a reading far out still finds its
+ * posterior there. The upper tail Q(x) = phi(x)/x (1 - 1/x^2 + 3/x^4 - ...)
+ * (Abramowitz & Stegun 26.2.12, from memory) gives the log masses of the cells from 40
+ * on to 1e-6 (the next term, 15/x^6, is 4e-9 at x = 40); the grid holds 1/2 of the
+ * prior. */
+START_TEST(far_tail_cells_keep_their_logs)
+{
+    test_grid g = grid_of(0, 61, 123);
+    lop_config *cfg = config_of("[prior]\nfamily = normal\nmean = 0\nsd = 1\n");
+    lop_error err = {0};
+    double lm[MAX_POINTS], outside;
+    ck_assert_int_eq(lop_prior_grid(cfg, g.s, g.n, g.h, lm, &outside, &err), LOP_OK);
+    lop_config_free(cfg);
+    for (size_t i = 80; i < g.n; i++) {
+        double a = cell_lo(&g, i), b = cell_hi(&g, i);
+        double la = -a * a / 2 - log(a * sqrt(2 * M_PI)) + log1p(-1 / (a * a) + 3 / pow(a, 4));
+        double lb = -b * b / 2 - log(b * sqrt(2 * M_PI)) + log1p(-1 / (b * b) + 3 / pow(b, 4));
+        double want = la + log1p(-exp(lb - la)) - log(0.5);
+        ck_assert(want < log(DBL_MIN)); /* the case this test is about */
+        ck_assert_msg(fabs(lm[i] - want) <= 1e-6, "cell %zu: log mass %.12g, asymptotic %.12g",
+                      i, lm[i], want);
+    }
 }
 END_TEST
 
@@ -485,9 +532,7 @@ static const error_case error_cases[] = {
     {"[prior]\nfamily = uniform\nlow = 0.6\nhigh = 0.4\n", 0, 0, 0, 4, "prior", "high",
      "low (0.6) must be below high (0.4)"},
     {"[prior]\nfamily = uniform\nlow = 2\n", 0, 0, 0, 3, "prior", "low",
-     "the grid's upper cell edge"},
-    {"[prior]\nfamily = beta\nalpha = 2\nbeta = 2\n", 0, 1, 11, 2, "prior", "family",
-     "the grid must lie inside [0, 1]"},
+     "the grid's `to`"},
     {"[prior]\nfamily = table\nat = 0, 0.5, 0.5\ndensity = 1, 1, 1\n", 0, 0, 0, 3, "prior",
      "at", "points must increase strictly: entry 3 (0.5) is not above entry 2"},
     {"[prior]\nfamily = table\nat = 0, 1\ndensity = 1, 2, 3\n", 0, 0, 0, 4, "prior", "density",
@@ -527,7 +572,7 @@ static const error_case error_cases[] = {
     {MIX_HEAD "[prior.a]\nfamily = normal\nmean = 0\nsd = 0\nweight = 1\n" PART_B, 0, 0, 0, 7,
      "prior.a", "sd", "must be > 0"},
     {NORMAL_HEAD "mean = 100\nsd = 1\n", 0, 0, 0, 2, "prior", "family",
-     "the normal prior puts no mass on the grid's cells (points 0.05 to 0.95, spacing 0.1)"},
+     "the normal prior puts no mass on the grid's range 0.05 to 0.95"},
     {"[prior]\nfamily = uniform\nlow = 5\nhigh = 6\n", 0, 0, 0, 2, "prior", "family",
      "the uniform prior puts no mass on the grid"},
     {MIX_HEAD "[prior.a]\nfamily = normal\nmean = 50\nsd = 1\nweight = 1\n"
@@ -597,7 +642,8 @@ Suite *suite_prior(void)
     tcase_add_test(tc, mixture_of_two_normals_is_the_weighted_sum);
     tcase_add_test(tc, normal_on_a_narrow_grid_leaves_both_tails_outside);
     tcase_add_test(tc, tail_cells_keep_their_relative_precision);
-    tcase_add_test(tc, beta_grid_at_the_ends_of_the_unit_interval_up_to_rounding);
+    tcase_add_test(tc, beta_grid_from_0_to_1_is_clipped_to_the_support);
+    tcase_add_test(tc, far_tail_cells_keep_their_logs);
     tcase_add_test(tc, bad_priors_name_their_line_section_and_key);
     tcase_add_test(tc, error_reads_as_file_line_section_key);
     tcase_add_test(tc, empty_grid_is_refused);

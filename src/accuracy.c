@@ -1,0 +1,513 @@
+/* Solving a problem to the accuracy it asks: the answer on the file's grids beside the
+ * answer on grids with twice the step, number by number (see accuracy.h). */
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "lopside/accuracy.h"
+#include "lopside/decide.h"
+#include "lopside/engine.h"
+
+/* What a number is, for the scale its error is measured against (format.md, README). */
+typedef enum {
+    QTY_SCORE,        /* expected losses, risks, values of information: the score scale */
+    QTY_PROBABILITY,  /* rates: absolute */
+    QTY_STATE,        /* posterior summaries, estimates: the state range */
+    QTY_MEASUREMENT,  /* switch points, thresholds: the measurement span */
+    QTY_SETTING,      /* a design's setting: its bracket */
+} quantity_kind;
+
+typedef struct {
+    char name[LOP_QUANTITY_NAME];
+    quantity_kind kind;
+    double scale;     /* QTY_SETTING only */
+    double *value;
+} quantity;
+
+typedef struct {
+    quantity *items;
+    size_t n, cap;
+    bool failed;      /* memory ran out */
+} quantity_list;
+
+static void add(quantity_list *l, quantity_kind kind, double scale, double *value,
+                const char *fmt, ...) __attribute__((format(printf, 5, 6)));
+
+/* Appends one number to l; a number that is not finite is not compared. */
+static void add(quantity_list *l, quantity_kind kind, double scale, double *value,
+                const char *fmt, ...)
+{
+    if (l->failed || !isfinite(*value))
+        return;
+    if (l->n == l->cap) {
+        size_t cap = l->cap ? 2 * l->cap : 64;
+        quantity *grown = realloc(l->items, cap * sizeof *grown);
+        if (!grown) {
+            l->failed = true;
+            return;
+        }
+        l->items = grown;
+        l->cap = cap;
+    }
+    quantity *q = &l->items[l->n++];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(q->name, sizeof q->name, fmt, ap);
+    va_end(ap);
+    q->kind = kind;
+    q->scale = scale;
+    q->value = value;
+}
+
+static void collect_case(const lop_problem *p, lop_results *r, quantity_list *l)
+{
+    lop_case_result *c = &r->kase;
+    if (c->numeric) {
+        add(l, QTY_STATE, 0, &c->summary.mean, "case.posterior.mean");
+        add(l, QTY_STATE, 0, &c->summary.sd, "case.posterior.sd");
+        add(l, QTY_STATE, 0, &c->summary.median, "case.posterior.median");
+        add(l, QTY_STATE, 0, &c->summary.mode, "case.posterior.mode");
+        add(l, QTY_STATE, 0, &c->summary.q05, "case.posterior.q05");
+        add(l, QTY_STATE, 0, &c->summary.q95, "case.posterior.q95");
+    }
+    add(l, QTY_SCORE, 0, &c->evpi, "case.evpi");
+    if (p->estimate) {
+        add(l, QTY_STATE, 0, &c->bayes_estimate, "case.bayes_estimate");
+        add(l, QTY_SCORE, 0, &c->bayes_estimate_loss, "case.expected_loss");
+        return;
+    }
+    for (size_t a = 0; a < p->n_actions; a++)
+        add(l, QTY_SCORE, 0, &c->expected_loss[a], "case.expected_loss[%s]", p->actions[a]);
+}
+
+static void collect_switches(quantity_list *l, lop_switch_point *sw, size_t n, const char *where)
+{
+    for (size_t k = 0; k < n; k++)
+        add(l, QTY_MEASUREMENT, 0, &sw[k].x, "%s.switch_points[%zu]", where, k + 1);
+}
+
+static void collect_rule(const lop_problem *p, lop_results *r, quantity_list *l)
+{
+    lop_rule_result *rule = &r->rule;
+    add(l, QTY_SCORE, 0, &rule->prior_only_risk, "rule.prior_only_risk");
+    if (!r->has_rule || !rule->computed)
+        return;
+    add(l, QTY_SCORE, 0, &rule->bayes_risk, "rule.bayes_risk");
+    collect_switches(l, rule->switches, rule->n_switches, "rule");
+    for (size_t k = 0; k < r->n_compared; k++) {
+        lop_compared_rule *cr = &r->compared[k];
+        if (!cr->computed)
+            continue;
+        add(l, QTY_SCORE, 0, &cr->risk, "rules.%s.risk", p->rules[k].name);
+        add(l, QTY_SCORE, 0, &cr->regret, "rules.%s.regret", p->rules[k].name);
+    }
+}
+
+static void collect_value(const lop_problem *p, lop_results *r, quantity_list *l)
+{
+    lop_value_result *v = &r->value;
+    for (size_t k = 0; k < v->n_next; k++)
+        if (v->next[k].computed)
+            add(l, QTY_SCORE, 0, &v->next[k].value, "value.next[%s]",
+                p->channels[v->next[k].channel].section);
+    if (!v->computed)
+        return;
+    add(l, QTY_SCORE, 0, &v->evpi, "value.evpi");
+    for (size_t i = 0; i < v->n_extra; i++) {
+        lop_value_extra *x = &v->extra[i];
+        if (!x->computed)
+            continue;
+        const char *ch = p->channels[x->channel].section;
+        add(l, QTY_SCORE, 0, &x->evsi, "value.extra[%s,%zu].evsi", ch, x->n);
+        add(l, QTY_SCORE, 0, &x->net, "value.extra[%s,%zu].net", ch, x->n);
+    }
+}
+
+static void collect_sweeps(const lop_problem *p, lop_results *r, quantity_list *l)
+{
+    for (size_t k = 0; k < r->n_sweeps; k++) {
+        lop_sweep_result *w = &r->sweeps[k];
+        const char *name = w->spec->name;
+        for (size_t i = 0; i < w->nx * w->ny; i++) {
+            lop_sweep_point *pt = &w->points[i];
+            if (!pt->computed)
+                continue;
+            char where[LOP_QUANTITY_NAME];
+            snprintf(where, sizeof where, "sweep.%s[%zu]", name, i + 1);
+            add(l, QTY_SCORE, 0, &pt->bayes_risk, "%s.bayes_risk", where);
+            add(l, QTY_SCORE, 0, &pt->evpi, "%s.evpi", where);
+            if (w->threshold)
+                add(l, QTY_SCORE, 0, &pt->expected_loss, "%s.expected_loss", where);
+            if (p->estimate)
+                add(l, QTY_STATE, 0, &pt->case_estimate, "%s.case_estimate", where);
+            for (size_t j = 0; pt->rates && j < w->n_rates; j++)
+                add(l, QTY_PROBABILITY, 0, &pt->rates[j], "%s.rates[%zu]", where, j + 1);
+            collect_switches(l, pt->switches, pt->n_switches, where);
+        }
+        for (size_t j = 0; w->rows && j < w->ny; j++) {
+            lop_threshold_row *row = &w->rows[j];
+            add(l, QTY_SCORE, 0, &row->bayes_risk, "sweep.%s.row[%zu].bayes_risk", name, j + 1);
+            if (!row->has_bayes_threshold)
+                continue;
+            add(l, QTY_MEASUREMENT, 0, &row->bayes_threshold, "sweep.%s.row[%zu].bayes_threshold",
+                name, j + 1);
+            add(l, QTY_SCORE, 0, &row->bayes_threshold_loss,
+                "sweep.%s.row[%zu].bayes_threshold_loss", name, j + 1);
+        }
+    }
+}
+
+static void collect_designs(lop_results *r, quantity_list *l)
+{
+    for (size_t k = 0; k < r->n_designs; k++) {
+        lop_design_result *d = &r->designs[k];
+        if (!d->reached)
+            continue;
+        add(l, QTY_SETTING, fabs(d->spec->to - d->spec->from), &d->value, "design.%s.value",
+            d->spec->name);
+    }
+}
+
+/* Every reported number of r that rests on the grids, with its name and kind. */
+static void collect(const lop_problem *p, lop_results *r, quantity_list *l)
+{
+    collect_case(p, r, l);
+    collect_rule(p, r, l);
+    collect_value(p, r, l);
+    collect_sweeps(p, r, l);
+    collect_designs(r, l);
+}
+
+static int by_name(const void *a, const void *b)
+{
+    return strcmp(((const quantity *)a)->name, ((const quantity *)b)->name);
+}
+
+double lop_accuracy_score_scale(const lop_problem *p, double prior_only_risk)
+{
+    double scale = 0;
+    if (!p->estimate) {
+        scale = lop_decide_loss_scale(p);
+    } else if (p->curve.kind == LOP_CURVE_TOLERANCE) {
+        scale = fmax(fabs(p->curve.inside), fabs(p->curve.outside));
+    } else if (p->curve.kind == LOP_CURVE_POINTS) {
+        for (size_t k = 0; k < p->curve.n_points; k++)
+            scale = fmax(scale, fabs(p->curve.value[k]));
+    } else {
+        scale = fabs(prior_only_risk);
+    }
+    return scale > 0 && isfinite(scale) ? scale : 1;
+}
+
+/* The scales of the contract for p solved into r. */
+static void set_scales(const lop_problem *p, const lop_results *r, lop_accuracy *acc)
+{
+    acc->score_scale = lop_accuracy_score_scale(p, r->rule.prior_only_risk);
+    acc->state_range = 1;
+    if (lop_problem_numeric_states(p) && p->n_states > 1)
+        acc->state_range = p->state_values[p->n_states - 1] - p->state_values[0];
+    acc->measurement_span = acc->state_range;
+    if (r->has_rule && r->rule.computed && r->rule.n_grid > 1)
+        acc->measurement_span = r->rule.grid[r->rule.n_grid - 1] - r->rule.grid[0];
+}
+
+static double scale_of(const lop_accuracy *acc, const quantity *q)
+{
+    switch (q->kind) {
+    case QTY_SCORE:
+        return acc->score_scale;
+    case QTY_PROBABILITY:
+        return 1;
+    case QTY_STATE:
+        return acc->state_range;
+    case QTY_MEASUREMENT:
+        return acc->measurement_span;
+    case QTY_SETTING:
+        return q->scale > 0 ? q->scale : 1;
+    }
+    return 1;
+}
+
+static int add_miss(lop_accuracy *acc, const char *name, double error, double allowed)
+{
+    lop_accuracy_miss *grown = realloc(acc->missed, (acc->n_missed + 1) * sizeof *grown);
+    if (!grown)
+        return -1;
+    acc->missed = grown;
+    lop_accuracy_miss *m = &acc->missed[acc->n_missed++];
+    snprintf(m->name, sizeof m->name, "%s", name);
+    m->error = error;
+    m->allowed = allowed;
+    return 0;
+}
+
+/* Fills fine->accuracy from the numbers of fine and coarse, whose errors shrink by the
+ * factor `ratio` from coarse to fine (the square of the ratio of the steps): the finer
+ * number's error is about |q - q'|/(ratio - 1). With extrapolate, also moves fine's
+ * numbers to the step 0 (Richardson 1911: q + (q - q')/(ratio - 1)). Returns -1 when
+ * memory runs out. */
+static int compare(const lop_problem *pf, lop_results *fine, const lop_problem *pc,
+                   lop_results *coarse, double ratio, bool extrapolate)
+{
+    lop_accuracy *acc = &fine->accuracy;
+    quantity_list lf = {0}, lc = {0};
+    collect(pf, fine, &lf);
+    collect(pc, coarse, &lc);
+    int rc = lf.failed || lc.failed ? -1 : 0;
+    if (rc == 0) {
+        qsort(lf.items, lf.n, sizeof *lf.items, by_name);
+        qsort(lc.items, lc.n, sizeof *lc.items, by_name);
+    }
+    free(acc->missed);
+    acc->missed = NULL;
+    acc->n_missed = acc->compared = acc->unmatched = 0;
+    acc->reached = 0;
+    acc->worst[0] = '\0';
+    acc->worst_error = 0;
+    size_t i = 0, j = 0;
+    while (rc == 0 && (i < lf.n || j < lc.n)) {
+        int order = i == lf.n ? 1 : j == lc.n ? -1 : strcmp(lf.items[i].name, lc.items[j].name);
+        if (order != 0) {
+            acc->unmatched++;
+            i += order < 0;
+            j += order > 0;
+            continue;
+        }
+        quantity *q = &lf.items[i++];
+        double f = *q->value, c = *lc.items[j++].value;
+        double error = fabs(f - c) / (ratio - 1);
+        double scale = scale_of(acc, q);
+        acc->compared++;
+        if (error / scale > acc->reached) {
+            acc->reached = error / scale;
+            snprintf(acc->worst, sizeof acc->worst, "%s", q->name);
+            acc->worst_error = error;
+        }
+        if (error > acc->asked * scale && add_miss(acc, q->name, error, acc->asked * scale) != 0)
+            rc = -1;
+        if (!extrapolate)
+            continue;
+        double better = f + (f - c) / (ratio - 1);
+        if (q->kind == QTY_PROBABILITY)
+            better = fmin(1, fmax(0, better));
+        *q->value = better;
+    }
+    free(lf.items);
+    free(lc.items);
+    return rc;
+}
+
+/* A number that passes its bound by less than `slack` is set onto the bound (it is
+ * within the accuracy of it); by more, it is a defect. Returns false for a defect. */
+static bool onto_bound(lop_accuracy *acc, double *v, double bound, bool below, double slack,
+                       const char *name, char *defect, size_t size)
+{
+    double over = below ? *v - bound : bound - *v;
+    if (!(over > 0))
+        return true;
+    if (over <= slack) {
+        *v = bound;
+        acc->n_clamped++;
+        return true;
+    }
+    snprintf(defect, size, "%s = %.17g passes its bound %.17g by %.3g, more than the accuracy "
+                           "allows (%.3g)",
+             name, *v, bound, over, slack);
+    return false;
+}
+
+/* Checks design.md's invariants on r, setting onto its bound any number within the
+ * accuracy of it; writes a sentence to defect and returns false on a violation. */
+static bool check_invariants(const lop_problem *p, lop_results *r, char *defect, size_t size)
+{
+    lop_accuracy *acc = &r->accuracy;
+    double slack = (fmax(acc->asked, acc->reached) + 1e-12) * acc->score_scale;
+    double pslack = fmax(acc->asked, acc->reached) + 1e-12;
+    lop_rule_result *rule = &r->rule;
+    if (!onto_bound(acc, &r->kase.evpi, 0, false, slack, "case.evpi", defect, size))
+        return false;
+    if (r->has_rule && rule->computed) {
+        if (!onto_bound(acc, &rule->bayes_risk, rule->prior_only_risk, true, slack,
+                        "rule.bayes_risk (above the prior-only risk: evidence of negative value)",
+                        defect, size))
+            return false;
+        for (size_t k = 0; k < r->n_compared; k++) {
+            lop_compared_rule *cr = &r->compared[k];
+            if (cr->computed && !onto_bound(acc, &cr->regret, 0, false, slack, "a rule's regret",
+                                            defect, size))
+                return false;
+            if (cr->computed)
+                cr->risk = rule->bayes_risk + cr->regret;
+        }
+    }
+    lop_value_result *v = &r->value;
+    if (v->computed) {
+        if (!onto_bound(acc, &v->evpi, 0, false, slack, "value.evpi", defect, size))
+            return false;
+        for (size_t i = 0; i < v->n_extra; i++) {
+            lop_value_extra *x = &v->extra[i];
+            if (!x->computed)
+                continue;
+            lop_value_extra *prev = i > 0 && v->extra[i - 1].channel == x->channel &&
+                                            v->extra[i - 1].computed
+                                        ? &v->extra[i - 1]
+                                        : NULL;
+            if (!onto_bound(acc, &x->evsi, prev ? prev->evsi : 0, false, slack,
+                            prev ? "an EVSI (below that of fewer measurements)" : "an EVSI",
+                            defect, size) ||
+                !onto_bound(acc, &x->evsi, v->evpi, true, slack, "an EVSI (above the EVPI)",
+                            defect, size))
+                return false;
+            x->net = x->evsi - (double)x->n * p->value.cost;
+        }
+    }
+    for (size_t k = 0; k < r->n_sweeps; k++) {
+        lop_sweep_result *w = &r->sweeps[k];
+        for (size_t i = 0; i < w->nx * w->ny; i++)
+            for (size_t j = 0; w->points[i].rates && j < w->n_rates; j++)
+                if (!onto_bound(acc, &w->points[i].rates[j], 0, false, pslack, "a sweep's rate",
+                                defect, size) ||
+                    !onto_bound(acc, &w->points[i].rates[j], 1, true, pslack, "a sweep's rate",
+                                defect, size))
+                    return false;
+    }
+    return true;
+}
+
+/* Returns true when some number of p rests on a grid: states on a grid, or estimates
+ * whose rule integrates over a grid of measurements. */
+static bool rests_on_grids(const lop_problem *p)
+{
+    return p->states_kind == LOP_STATES_GRID ||
+           (p->estimate && lop_problem_numeric_channels(p) > 0);
+}
+
+/* Returns p re-built with [problem] refine = level, NULL with *too_fine set when the
+ * grids would pass their limits, NULL with err set when memory runs out. */
+static lop_problem *at_level(const lop_problem *p, int level, bool *too_fine, lop_error *err)
+{
+    *too_fine = false;
+    lop_config *cfg = lop_config_copy(p->source);
+    char text[16];
+    snprintf(text, sizeof text, "%d", level);
+    const lop_section *sec = lop_config_section(p->source, "problem");
+    if (!cfg || lop_config_set(cfg, "problem", "refine", text, sec ? sec->line : 0) != 0) {
+        lop_config_free(cfg);
+        lop_error_run(err, "out of memory");
+        return NULL;
+    }
+    lop_error inner = {0};
+    lop_problem *q = lop_problem_build(cfg, &inner);
+    lop_config_free(cfg);
+    if (!q && inner.status == LOP_EINPUT)
+        *too_fine = true;
+    else if (!q)
+        *err = inner;
+    return q;
+}
+
+/* The factor by which the error shrinks from q's grids to p's: the squared ratio of their
+ * cells (state grid, else the rule's measurement grid). */
+static double error_ratio(const lop_problem *fine, const lop_results *rf,
+                          const lop_problem *coarse, const lop_results *rc)
+{
+    double r = fine->states_kind == LOP_STATES_GRID
+                   ? (double)(fine->n_states - 1) / (double)(coarse->n_states - 1)
+                   : (double)(rf->rule.n_grid - 1) / (double)(rc->rule.n_grid - 1);
+    return r * r;
+}
+
+lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress,
+                              lop_solution *out, lop_error *err)
+{
+    lop_results *fine = lop_engine_solve_progress(p, progress, err);
+    if (!fine)
+        return err->status;
+    lop_accuracy *acc = &fine->accuracy;
+    acc->asked = p->accuracy;
+    set_scales(p, fine, acc);
+    lop_problem *fine_p = NULL, *coarse_p = NULL;
+    lop_results *coarse = NULL;
+    if (rests_on_grids(p)) {
+        /* The companion: the same problem on grids with twice the step (or, for a file
+         * that asks for the coarsest level, half the step). */
+        int level = p->refine, companion = level > -1 ? level - 1 : level + 1;
+        bool too_fine;
+        coarse_p = at_level(p, companion, &too_fine, err);
+        if (!coarse_p && !too_fine)
+            goto fail;
+        coarse = coarse_p ? lop_engine_solve_progress(coarse_p, progress, err) : NULL;
+        if (coarse_p && !coarse)
+            goto fail;
+        if (companion > level) { /* the companion is the finer: swap the roles */
+            lop_results *t = fine;
+            fine = coarse;
+            coarse = t;
+            fine_p = coarse_p;
+            coarse_p = NULL;
+            acc = &fine->accuracy;
+            acc->asked = p->accuracy;
+            level = companion;
+        }
+        for (int extra = 0; coarse; extra++) {
+            const lop_problem *fp = fine_p ? fine_p : p, *cp = coarse_p ? coarse_p : p;
+            set_scales(fp, fine, acc);
+            acc->estimated = true;
+            double ratio = error_ratio(fp, fine, cp, coarse);
+            bool last = extra >= LOP_ACCURACY_LEVELS;
+            if (compare(fp, fine, cp, coarse, ratio, false) != 0) {
+                lop_error_run(err, "out of memory");
+                goto fail;
+            }
+            lop_problem *next_p = NULL;
+            if (acc->reached > acc->asked && !last) {
+                /* Not reached: half the step again, the finer answer as the companion. */
+                bool too_fine;
+                next_p = at_level(p, level + 1, &too_fine, err);
+                if (!next_p && !too_fine)
+                    goto fail;
+            }
+            if (!next_p) {
+                if (compare(fp, fine, cp, coarse, ratio, true) != 0) {
+                    lop_error_run(err, "out of memory");
+                    goto fail;
+                }
+                break;
+            }
+            lop_results *next = lop_engine_solve_progress(next_p, progress, err);
+            if (!next) {
+                lop_problem_free(next_p);
+                goto fail;
+            }
+            lop_results_free(coarse);
+            lop_problem_free(coarse_p);
+            coarse = fine;
+            coarse_p = fine_p;
+            fine = next;
+            fine_p = next_p;
+            acc = &fine->accuracy;
+            acc->asked = p->accuracy;
+            level++;
+        }
+    }
+    acc->refine = (fine_p ? fine_p : p)->refine;
+    acc->state_points = p->states_kind == LOP_STATES_GRID ? (fine_p ? fine_p : p)->n_states : 0;
+    char defect[512];
+    if (!check_invariants(fine_p ? fine_p : p, fine, defect, sizeof defect)) {
+        lop_error_run(err, "a defect: %s; please report it with the problem file", defect);
+        goto fail;
+    }
+    lop_results_free(coarse);
+    lop_problem_free(coarse_p);
+    out->refined = fine_p;
+    out->results = fine;
+    return LOP_OK;
+fail:
+    lop_results_free(coarse);
+    lop_results_free(fine);
+    lop_problem_free(coarse_p);
+    lop_problem_free(fine_p);
+    return err->status;
+}

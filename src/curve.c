@@ -11,17 +11,12 @@
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 #include <gsl/gsl_sf_exp.h>
 
-#include "lopside/curve.h"
+#include "curve_private.h"
 #include "lopside/interp.h"
 
-/* Cumulative weights within this fraction of the total count as equal when the minimum
- * of an absolute or linlin loss may be flat, and expected losses within this fraction of
- * the loss scale count as one plateau: far above the rounding of an O(S) sum, far below
- * any real difference. */
-#define TIE_RELATIVE 1e-11
+#define TIE_RELATIVE CURVE_TIE_RELATIVE
 /* exp() of more than this would overflow a double: LINEX sums are then scaled. */
 #define EXP_SAFE 700.0
 /* The FFT path of a points curve is taken when FFT_COST·n·log2(n) is below the pieces'
@@ -29,33 +24,13 @@
  * takes about 0.66 ns·n·log2(n), the pieces about 1.5 ns per estimate and knot plus
  * 1 ns per state and knot; with S = E = 10,000 both take 0.19 ms at P = 5. */
 #define FFT_COST 0.5
-/* Relative LINEX: Brent's method stops when the bracket is this narrow (relative to
- * the interval of estimates) or after this many steps. */
+/* Relative LINEX and points curves with continuous estimates: the root or minimum
+ * search stops when the bracket is this narrow (relative to the interval searched) or
+ * after this many steps. */
 #define ROOT_TOLERANCE 1e-14
 #define ROOT_ITERATIONS 200
+#define MIN_TOLERANCE 1e-12
 
-
-struct lop_curve_work {
-    lop_curve c;                    /* c.error and c.value point into knots */
-    double *knots;                  /* points: errors, then values */
-    double *slope;                  /* points: slope of each of the P - 1 pieces */
-    size_t n_states, n_estimates;
-    double *s, *x;                  /* copies of the grids */
-    double *inv_s;                  /* relative: 1 / s */
-    double *pre[3];                 /* prefix sums over states, n_states + 1 each */
-    size_t *count;                  /* points: per knot, the states with error >= it */
-    double *el;                     /* n_estimates: grid Bayes estimates */
-    lop_curve_method method;
-    lop_curve_fft *fft;
-    gsl_root_fsolver *solver;       /* relative linex */
-
-    /* Sums of the posterior of the current call. */
-    double mass;                    /* sum p */
-    double center;                  /* m1 = sum p·s / mass */
-    double spread;                  /* squared: sum p·d²; relative: sum p·(1/s - mu)² */
-    double inv_mean;                /* relative squared: mu = sum p/s / mass */
-    double log_phi, z_sum;          /* linex: log sum p·phi(z), sum p·z, z = -a·d */
-};
 
 /* ---- the loss of one estimate ---------------------------------------------------- */
 
@@ -198,10 +173,11 @@ static double clamp(double v, double lo, double hi)
     return v < lo ? lo : v > hi ? hi : v;
 }
 
-/* Returns v clamped to the interval of estimates. */
+/* Returns v clamped to the interval searched: the estimate grid's, or with continuous
+ * estimates the states' (where every convex curve's minimizer lies). */
 static double clamp_to_estimates(const lop_curve_work *w, double v)
 {
-    return clamp(v, w->x[0], w->x[w->n_estimates - 1]);
+    return clamp(v, w->range_lo, w->range_hi);
 }
 
 /* ---- sums of the posterior -------------------------------------------------------- */
@@ -246,14 +222,16 @@ static double run(const double *a, size_t lo, size_t hi)
     return a[hi] - a[lo];
 }
 
-/* Returns sum p·loss(x, s) by the direct sum (states without mass are skipped, so an
- * infinite loss there does not turn the sum into NaN). */
+/* Returns sum p·loss(x, s), or over cells sum p·(the cell's average loss), by the direct
+ * sum (states without mass are skipped, so an infinite loss there does not turn the sum
+ * into NaN). */
 static double direct_at(const lop_curve_work *w, const double *p, double x)
 {
     double sum = 0;
+    bool cells = curve_by_cells(w);
     for (size_t i = 0; i < w->n_states; i++)
         if (p[i] != 0)
-            sum += p[i] * lop_curve_loss(&w->c, x, w->s[i]);
+            sum += p[i] * (cells ? cells_loss(w, x, i) : lop_curve_loss(&w->c, x, w->s[i]));
     return sum;
 }
 
@@ -364,7 +342,7 @@ static double linlin_bayes(const lop_curve_work *w)
         lo = w->s[count_below(a + 1, n, goal - tie)];
     if (goal + tie < total)
         hi = w->s[lop_count_at_most(a, n, goal + tie) - 1];
-    double first = w->x[0], last = w->x[w->n_estimates - 1];
+    double first = w->range_lo, last = w->range_hi;
     if (lo > last)
         return last;
     if (hi < first)
@@ -535,7 +513,7 @@ static double linex_relative_bayes(lop_curve_work *w, const double *p)
         sum += exp(log_weight[i] - top);
     linex_relative_view view = {w, log_weight, top + log(sum)};
     double sign = w->c.a > 0 ? 1 : -1;
-    double first = w->x[0], last = w->x[w->n_estimates - 1];
+    double first = w->range_lo, last = w->range_hi;
     if (sign * linex_relative_score(first, &view) >= 0)
         return first;
     if (sign * linex_relative_score(last, &view) <= 0)
@@ -557,8 +535,7 @@ static double linex_relative_bayes(lop_curve_work *w, const double *p)
 
 /* ---- tolerance: a window of states ------------------------------------------------ */
 
-/* Returns the expected loss given the posterior mass inside the band. */
-static double tolerance_el(const lop_curve_work *w, double in)
+double curve_tolerance_el(const lop_curve_work *w, double in)
 {
     return w->c.outside * w->mass + (w->c.inside - w->c.outside) * in;
 }
@@ -576,7 +553,7 @@ static void tolerance_grid(lop_curve_work *w, double *el)
             lo++;
         while (hi < n && x - w->s[hi] >= -w->c.below)
             hi++;
-        el[j] = tolerance_el(w, hi > lo ? run(cum, lo, hi) : 0);
+        el[j] = curve_tolerance_el(w, hi > lo ? run(cum, lo, hi) : 0);
     }
 }
 
@@ -625,8 +602,48 @@ static void tolerance_relative_grid(lop_curve_work *w, double *el)
         } else {
             relative_band(w, x, &lo, &hi);
         }
-        el[j] = tolerance_el(w, hi > lo ? run(cum, lo, hi) : 0);
+        el[j] = curve_tolerance_el(w, hi > lo ? run(cum, lo, hi) : 0);
     }
+}
+
+/* Returns the number of s[0..n-1] (increasing) with x - s > above: a prefix. */
+static size_t count_beyond_band(const double *s, size_t n, double x, double above)
+{
+    size_t lo = 0, hi = n;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (x - s[mid] > above)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+/* Returns the number of s[0..n-1] (increasing) with x - s >= -below: a prefix. */
+static size_t count_within_band(const double *s, size_t n, double x, double below)
+{
+    size_t lo = 0, hi = n;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (x - s[mid] >= -below)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+double curve_points_window(const lop_curve_work *w, double x)
+{
+    size_t lo, hi, n = w->n_states;
+    if (w->c.relative) {
+        relative_band(w, x, &lo, &hi);
+    } else {
+        lo = count_beyond_band(w->s, n, x, w->c.above);
+        hi = count_within_band(w->s, n, x, w->c.below);
+    }
+    return hi > lo ? run(w->pre[0], lo, hi) : 0;
 }
 
 /* ---- points: prefix sums per piece ------------------------------------------------ */
@@ -718,6 +735,7 @@ static size_t grid_best(const double *el, size_t n, double scale)
 /* Sets the sums lop_curve_expected and lop_curve_bayes read for the posterior p. */
 static void prepare(lop_curve_work *w, const double *p)
 {
+    w->p = p;
     switch (w->c.kind) {
     case LOP_CURVE_SQUARED:
         squared_prepare(w, p);
@@ -725,7 +743,10 @@ static void prepare(lop_curve_work *w, const double *p)
     case LOP_CURVE_ABSOLUTE:
     case LOP_CURVE_LINLIN:
         set_center(w, p);
-        set_prefix(w, p, 1, 2, 0);
+        if (w->cells)
+            cells_linlin_prepare(w);
+        else
+            set_prefix(w, p, 1, 2, 0);
         break;
     case LOP_CURVE_QUADQUAD:
         set_center(w, p);
@@ -741,11 +762,37 @@ static void prepare(lop_curve_work *w, const double *p)
         break;
     case LOP_CURVE_POINTS:
         set_center(w, p);           /* the FFT path needs only the mass, for ties */
-        if (w->method == LOP_CURVE_BY_FFT)
+        if (w->method == LOP_CURVE_BY_FFT && !w->continuous)
             break;
-        set_prefix(w, p, 0, 1, 0);
+        set_prefix(w, p, 0, 1, 0);  /* the search between grid points takes the pieces */
         set_prefix(w, p, 1, 2, 1);
         break;
+    }
+}
+
+/* Writes the expected linlin (absolute) loss of every estimate. */
+static void linlin_expected(lop_curve_work *w, double *el)
+{
+    if (!w->cells) {
+        linlin_grid(w, el);
+        return;
+    }
+    double under, over;
+    linlin_weights(&w->c, &under, &over);
+    for (size_t j = 0; j < w->n_estimates; j++)
+        el[j] = cells_linlin_at(w, w->x[j], under, over);
+}
+
+/* Writes the expected tolerance loss of every estimate. */
+static void tolerance_expected(lop_curve_work *w, double *el)
+{
+    if (w->cells) {
+        for (size_t j = 0; j < w->n_estimates; j++)
+            el[j] = curve_tolerance_el(w, cells_window(w, w->x[j]));
+    } else if (w->c.relative) {
+        tolerance_relative_grid(w, el);
+    } else {
+        tolerance_grid(w, el);
     }
 }
 
@@ -759,7 +806,7 @@ void lop_curve_expected(lop_curve_work *w, const double *p, double *el)
         break;
     case LOP_CURVE_ABSOLUTE:
     case LOP_CURVE_LINLIN:
-        linlin_grid(w, el);
+        linlin_expected(w, el);
         break;
     case LOP_CURVE_QUADQUAD:
         quadquad_grid(w, el);
@@ -769,10 +816,7 @@ void lop_curve_expected(lop_curve_work *w, const double *p, double *el)
             el[j] = w->c.relative ? direct_at(w, p, w->x[j]) : linex_at(w, w->x[j]);
         break;
     case LOP_CURVE_TOLERANCE:
-        if (w->c.relative)
-            tolerance_relative_grid(w, el);
-        else
-            tolerance_grid(w, el);
+        tolerance_expected(w, el);
         break;
     case LOP_CURVE_POINTS:
         if (w->method == LOP_CURVE_BY_FFT)
@@ -789,6 +833,11 @@ void lop_curve_expected_direct(const lop_curve_work *w, const double *p, double 
         el[j] = direct_at(w, p, w->x[j]);
 }
 
+double lop_curve_expected_at(const lop_curve_work *w, const double *p, double x)
+{
+    return direct_at(w, p, x);
+}
+
 /* Expected loss of one estimate x for a convex curve, once prepare() has run. */
 static double convex_at(lop_curve_work *w, const double *p, double x)
 {
@@ -800,6 +849,8 @@ static double convex_at(lop_curve_work *w, const double *p, double x)
     case LOP_CURVE_LINLIN: {
         double under, over;
         linlin_weights(c, &under, &over);
+        if (w->cells)
+            return cells_linlin_at(w, x, under, over);
         return linlin_at(w, x, lop_count_at_most(w->s, w->n_states, x), under, over);
     }
     case LOP_CURVE_QUADQUAD:
@@ -809,7 +860,7 @@ static double convex_at(lop_curve_work *w, const double *p, double x)
     }
 }
 
-/* The continuous minimizer of a convex curve's expected loss over the estimate range. */
+/* The continuous minimizer of a convex curve's expected loss over the range searched. */
 static double convex_minimizer(lop_curve_work *w, const double *p)
 {
     const lop_curve *c = &w->c;
@@ -820,8 +871,13 @@ static double convex_minimizer(lop_curve_work *w, const double *p)
     case LOP_CURVE_SQUARED:
         return squared_bayes(w);
     case LOP_CURVE_ABSOLUTE:
-    case LOP_CURVE_LINLIN:
-        return linlin_bayes(w);
+    case LOP_CURVE_LINLIN: {
+        if (!w->cells)
+            return linlin_bayes(w);
+        double under, over;
+        linlin_weights(c, &under, &over);
+        return clamp_to_estimates(w, cells_linlin_bayes(w, under, over));
+    }
     case LOP_CURVE_QUADQUAD:
         return quadquad_bayes(w);
     default:
@@ -829,11 +885,94 @@ static double convex_minimizer(lop_curve_work *w, const double *p)
     }
 }
 
+/* Returns the expected loss of a points curve at x from the pieces, the counts of each
+ * knot found by bisection (they are prefixes of the states). */
+static double points_one(lop_curve_work *w, double x)
+{
+    if (w->c.relative && x <= 0)
+        return direct_at(w, w->p, x);
+    for (size_t m = 0; m < w->c.n_points; m++) {
+        size_t lo = 0, hi = w->n_states;
+        while (lo < hi) {
+            size_t mid = lo + (hi - lo) / 2;
+            if (points_reaches(w, m, x, mid))
+                lo = mid + 1;
+            else
+                hi = mid;
+        }
+        w->count[m] = lo;
+    }
+    return points_at(w, x);
+}
+
+static double points_score(double x, void *params)
+{
+    return points_one(params, x);
+}
+
+/* Returns the minimizer of a points curve's expected loss near the best grid estimate j
+ * by Brent's method (GSL) between its neighbours, and writes its expected loss to *el;
+ * the grid estimate itself when the neighbours do not bracket a lower value (an end,
+ * or a plateau). The expected loss is continuous and piecewise linear in x, so the
+ * search converges on the break where it is least. */
+static double points_search(lop_curve_work *w, size_t j, double *el)
+{
+    size_t n = w->n_estimates;
+    double x = w->x[j], best = points_one(w, x);
+    *el = best;
+    if (j == 0 || j + 1 >= n)
+        return x;
+    double lo = w->x[j - 1], hi = w->x[j + 1];
+    double f_lo = points_one(w, lo), f_hi = points_one(w, hi);
+    gsl_function f = {points_score, w};
+    if (!(best < f_lo && best < f_hi) ||
+        gsl_min_fminimizer_set_with_values(w->minimizer, &f, x, best, lo, f_lo, hi, f_hi) !=
+            GSL_SUCCESS)
+        return x;
+    for (int it = 0; it < ROOT_ITERATIONS; it++) {
+        if (gsl_min_fminimizer_iterate(w->minimizer) != GSL_SUCCESS)
+            break;
+        double a = gsl_min_fminimizer_x_lower(w->minimizer);
+        double b = gsl_min_fminimizer_x_upper(w->minimizer);
+        if (gsl_min_test_interval(a, b, MIN_TOLERANCE * (w->x[n - 1] - w->x[0]), 0) ==
+            GSL_SUCCESS)
+            break;
+    }
+    double m = gsl_min_fminimizer_x_minimum(w->minimizer);
+    double v = points_one(w, m);
+    if (v < best) {
+        *el = v;
+        return m;
+    }
+    return x;
+}
+
+/* The best real estimate: closed forms and roots for convex curves, the breaks of a
+ * tolerance window, Brent's method for points. */
+static double continuous_bayes(lop_curve_work *w, const double *p, double *el)
+{
+    const lop_curve *c = &w->c;
+    if (c->kind == LOP_CURVE_TOLERANCE) {
+        prepare(w, p);
+        return curve_tolerance_bayes(w, el);
+    }
+    if (c->kind == LOP_CURVE_POINTS) {
+        lop_curve_expected(w, p, w->el);
+        size_t j = grid_best(w->el, w->n_estimates, curve_loss_scale(c) * w->mass);
+        return points_search(w, j, el);
+    }
+    double x = convex_minimizer(w, p);
+    *el = convex_at(w, p, x);
+    return x;
+}
+
 double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min)
 {
     const lop_curve *c = &w->c;
     double x, el;
-    if (c->kind == LOP_CURVE_TOLERANCE || c->kind == LOP_CURVE_POINTS) {
+    if (w->continuous) {
+        x = continuous_bayes(w, p, &el);
+    } else if (c->kind == LOP_CURVE_TOLERANCE || c->kind == LOP_CURVE_POINTS) {
         lop_curve_expected(w, p, w->el);
         size_t j = grid_best(w->el, w->n_estimates, curve_loss_scale(c) * w->mass);
         x = w->x[j];
@@ -853,6 +992,22 @@ double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min)
     if (el_min)
         *el_min = el;
     return x;
+}
+
+double lop_curve_least_loss(const lop_curve *c)
+{
+    switch (c->kind) {
+    case LOP_CURVE_TOLERANCE:
+        return fmin(c->inside, c->outside);
+    case LOP_CURVE_POINTS: {
+        double least = c->value[0];
+        for (size_t m = 1; m < c->n_points; m++)
+            least = fmin(least, c->value[m]);
+        return least;
+    }
+    default:
+        return 0;                   /* every other curve is >= 0, and 0 at e = 0 */
+    }
 }
 
 /* ---- the workspace ---------------------------------------------------------------- */
@@ -877,6 +1032,9 @@ void lop_curve_work_free(lop_curve_work *w)
     free(w->el);
     lop_curve_fft_free(w->fft);
     gsl_root_fsolver_free(w->solver);
+    gsl_min_fminimizer_free(w->minimizer);
+    free(w->edge);
+    free(w->cand);
     free(w);
 }
 
@@ -981,8 +1139,23 @@ static lop_curve_method default_method(const lop_curve *c)
     }
 }
 
+/* Returns false when memory runs out; sets the edges of the cells: the midpoints between
+ * states, and the first and last state. */
+static bool set_edges(lop_curve_work *w)
+{
+    size_t n = w->n_states;
+    if (!(w->edge = malloc((n + 1) * sizeof *w->edge)))
+        return false;
+    w->edge[0] = w->s[0];
+    for (size_t i = 1; i < n; i++)
+        w->edge[i] = 0.5 * (w->s[i - 1] + w->s[i]);
+    w->edge[n] = w->s[n - 1];
+    return true;
+}
+
 lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, size_t n_states,
-                                   const double *estimates, size_t n_estimates)
+                                   const double *estimates, size_t n_estimates,
+                                   unsigned options)
 {
     if (!c || lop_curve_invalid(c) || !increasing(states, n_states) ||
         !increasing(estimates, n_estimates))
@@ -1001,6 +1174,18 @@ lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, siz
     w->x = copy_of(estimates, n_estimates);
     w->el = malloc(n_estimates * sizeof *w->el);
     if (!w->s || !w->x || !w->el)
+        goto fail;
+    w->cells = (options & LOP_CURVE_CELLS) && n_states >= 2;
+    w->continuous = (options & LOP_CURVE_CONTINUOUS) != 0;
+    w->range_lo = w->continuous ? states[0] : estimates[0];
+    w->range_hi = w->continuous ? states[n_states - 1] : estimates[n_estimates - 1];
+    if (w->cells && !set_edges(w))
+        goto fail;
+    if (w->continuous && c->kind == LOP_CURVE_TOLERANCE &&
+        !(w->cand = malloc((2 * (n_states + 1) + 1) * sizeof *w->cand)))
+        goto fail;
+    if (w->continuous && c->kind == LOP_CURVE_POINTS &&
+        !(w->minimizer = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent)))
         goto fail;
     if (c->relative) {
         w->inv_s = malloc(n_states * sizeof *w->inv_s);

@@ -1,4 +1,5 @@
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 
 #include "lopside/decide.h"
@@ -73,11 +74,18 @@ static double best_near(const lop_problem *p, double state, double target, doubl
 
 double lop_decide_perfect_estimate(const lop_problem *p, const double *w)
 {
+    const lop_curve *c = &p->curve;
+    if (!p->estimates_given) {
+        /* Any real estimate: the state known, the error is chosen freely. */
+        double mass = 0;
+        for (size_t s = 0; s < p->n_states; s++)
+            mass += w[s];
+        return mass * lop_curve_least_loss(c);
+    }
     /* With the state known the decider still answers with a point of the estimate grid
      * (the actions). Its loss as a function of the estimate is monotone between
      * breakpoints at the errors 0 (every curve's minimum or band) and the knots of a
      * `points` curve, so the best grid point is a neighbour of one of them, or an end. */
-    const lop_curve *c = &p->curve;
     size_t n_knots = c->kind == LOP_CURVE_POINTS ? c->n_points : 0;
     double sum = 0;
     for (size_t s = 0; s < p->n_states; s++) {
@@ -94,15 +102,77 @@ double lop_decide_perfect_estimate(const lop_problem *p, const double *w)
     return sum;
 }
 
+lop_curve_work *lop_decide_curve_work(const lop_problem *p)
+{
+    unsigned options = (p->states_kind == LOP_STATES_GRID ? LOP_CURVE_CELLS : 0) |
+                       (p->estimates_given ? 0 : LOP_CURVE_CONTINUOUS);
+    return lop_curve_work_new(&p->curve, p->state_values, p->n_states, p->estimates,
+                              p->n_estimates, options);
+}
+
+/* Returns the input error of a curve whose expected loss at estimate x is not finite,
+ * naming the states whose losses make it so (x not a number: those whose relative error
+ * 1/s overflows), or, when no single loss overflows but their sum does, every state
+ * with mass. */
+static lop_status unbounded(const lop_problem *p, const double *post, double x,
+                            lop_error *err)
+{
+    double first = NAN, last = NAN, any_first = NAN, any_last = NAN;
+    for (size_t s = 0; s < p->n_states; s++) {
+        if (post[s] == 0)
+            continue;
+        double v = p->state_values[s];
+        any_first = isnan(any_first) ? v : any_first;
+        any_last = v;
+        bool bad = isfinite(x) ? !isfinite(post[s] * lop_curve_loss(&p->curve, x, v))
+                               : p->curve.relative && !isfinite(1 / v);
+        if (bad) {
+            first = isnan(first) ? v : first;
+            last = v;
+        }
+    }
+    if (isnan(first)) {
+        first = any_first;
+        last = any_last;
+    }
+    const char *section = lop_problem_orientation(p);
+    char at[64] = "at every estimate";
+    if (isfinite(x))
+        snprintf(at, sizeof at, "even at the best estimate (%.6g)", x);
+    return lop_error_input(err, p->path, p->curve_line, section, "curve",
+                           "the expected %s has no finite value: %s the %s of states %.6g to "
+                           "%.6g is beyond the largest number%s; narrow the states or choose "
+                           "another curve",
+                           section, at, section, first, last,
+                           p->curve.relative ? " (a relative error grows without bound as "
+                                               "the state approaches 0)"
+                                             : "");
+}
+
+lop_status lop_decide_estimate_risk(const lop_problem *p, lop_curve_work *w, const double *post,
+                                    double *x, double *el, lop_error *err)
+{
+    double loss, best = lop_curve_bayes(w, post, &loss);
+    if (!isfinite(loss))
+        return unbounded(p, post, best, err);
+    if (x)
+        *x = best;
+    if (el)
+        *el = loss;
+    return LOP_OK;
+}
+
 static lop_status decide_estimate(const lop_problem *p, lop_case_result *c, lop_error *err)
 {
-    lop_curve_work *w = lop_curve_work_new(&p->curve, p->state_values, p->n_states,
-                                           p->estimates, p->n_estimates);
+    lop_curve_work *w = lop_decide_curve_work(p);
     if (!w)
         return lop_error_run(err, "out of memory preparing the loss curve");
     lop_curve_expected(w, c->posterior, c->estimate_curve);
-    c->bayes_estimate = lop_curve_bayes(w, c->posterior, &c->bayes_estimate_loss);
+    lop_status st = lop_decide_estimate_risk(p, w, c->posterior, &c->bayes_estimate,
+                                             &c->bayes_estimate_loss, err);
     lop_curve_work_free(w);
+    if (st != LOP_OK)
+        return st;
     c->evpi = c->bayes_estimate_loss - lop_decide_perfect_estimate(p, c->posterior);
     if (c->evpi < 0) /* rounding only */
         c->evpi = 0;

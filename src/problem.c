@@ -416,6 +416,7 @@ static lop_status build_estimates(builder *b)
         memcpy(p->estimates, p->state_values, p->n_states * sizeof *p->estimates);
         return LOP_OK;
     }
+    p->estimates_given = true;
     double lo = p->state_values[0], hi = p->state_values[p->n_states - 1];
     if (pb_number(b, "actions", "from", false, lo, &lo) != LOP_OK ||
         pb_number(b, "actions", "to", false, hi, &hi) != LOP_OK)

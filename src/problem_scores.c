@@ -367,6 +367,7 @@ static lop_status build_curve(builder *b, const char *section)
                         e->value, near ? " (did you mean `" : "", near ? near : "",
                         near ? "`?)" : "");
     }
+    p->curve_line = e->line;
     if (p->payoff && !spec->payoff_allowed)
         return pb_error(b, e->line, section, "curve",
                         "`%s` is a loss curve: give it in [loss] (only tolerance and points "

@@ -308,12 +308,14 @@ lop_status lop_rule_solve(const lop_problem *p, lop_results *r, lop_error *err)
         rule->prior_only_risk = el[rule->prior_only_action];
         free(el);
     } else {
-        lop_curve_work *w = lop_curve_work_new(&p->curve, p->state_values, p->n_states,
-                                               p->estimates, p->n_estimates);
+        lop_curve_work *w = lop_decide_curve_work(p);
         if (!w)
             return lop_error_run(err, "out of memory");
-        lop_curve_bayes(w, p->prior, &rule->prior_only_risk);
+        lop_status st =
+            lop_decide_estimate_risk(p, w, p->prior, NULL, &rule->prior_only_risk, err);
         lop_curve_work_free(w);
+        if (st != LOP_OK)
+            return st;
     }
     if (p->n_channels == 0)
         return LOP_OK;

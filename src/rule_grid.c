@@ -92,8 +92,7 @@ static void thread_work_free(thread_work *t, size_t n_rules)
 
 static lop_curve_work *curve_for(const lop_problem *p)
 {
-    return lop_curve_work_new(&p->curve, p->state_values, p->n_states, p->estimates,
-                              p->n_estimates);
+    return lop_decide_curve_work(p);
 }
 
 static thread_work *thread_work_new(const grid_job *job)
@@ -147,16 +146,6 @@ static double negligible_for(const lop_problem *p)
     return bounded ? NEGLIGIBLE_LOG_WEIGHT : -INFINITY;
 }
 
-/* Expected loss of estimate e under post, by the direct sum (any estimate, any curve). */
-static double estimate_loss(const lop_problem *p, const double *post, double e)
-{
-    double sum = 0;
-    for (size_t s = 0; s < p->n_states; s++)
-        if (post[s] > 0)
-            sum += post[s] * lop_curve_loss(&p->curve, e, p->state_values[s]);
-    return sum;
-}
-
 /* Decision of rule k at measurement x (an action index or an estimate), and its
  * posterior expected loss under the true posterior t->post (choices: t->el). */
 static double compared_decision(const grid_job *job, thread_work *t, size_t k, double x,
@@ -207,7 +196,8 @@ static double compared_decision(const grid_job *job, thread_work *t, size_t k, d
         break;
     }
     }
-    *loss = estimate_loss(p, t->post, estimate);
+    /* the model of the Bayes estimate (cells on a grid), so regrets compare like with like */
+    *loss = lop_curve_expected_at(t->curve, t->post, estimate);
     return estimate;
 }
 

@@ -355,12 +355,17 @@ static void snap_to_values(sim_decider *d, const double *v, size_t n)
     d->snap_inv_h = uniform ? 1 / h : 0;
 }
 
-/* Bayes estimates are points of the estimate grid, the actions (curve.h); interpolated
- * between measurement points they are put back on it: a sharp band scores an estimate on
- * the grid's lattice differently from one beside it. */
+/* Bayes estimates are points of the estimate grid when the file gives one (curve.h);
+ * interpolated between measurement points they are put back on it: a sharp band scores
+ * an estimate on the grid's lattice differently from one beside it. Without a grid the
+ * estimate is any real number and stays as interpolated, except for a points curve:
+ * its expected loss is a sum over the states (curve.h), with kinks at the states plus
+ * the knots, where its best estimates lie; interpolated off them an estimate would be
+ * scored down a slope the rule never takes, so it goes back to the state grid. */
 static void snap_estimates(sim_decider *d, const lop_problem *decider)
 {
-    snap_to_values(d, decider->estimates, decider->n_estimates);
+    if (decider->estimates_given || decider->curve.kind == LOP_CURVE_POINTS)
+        snap_to_values(d, decider->estimates, decider->n_estimates);
 }
 
 const char *sim_decider_init(sim_decider *d, const lop_problem *p, const lop_results *r,
@@ -418,12 +423,15 @@ const char *sim_decider_init(sim_decider *d, const lop_problem *p, const lop_res
         return r->compared[rule].not_computed_why ? r->compared[rule].not_computed_why
                                                   : "the rule was not computed";
     if (p->estimate) {
-        /* The posterior mode and the maximum-likelihood state follow the measurement in
-         * steps of the state grid: interpolated, then put on the nearest state, they track
-         * the rule between measurement points, where the value at the nearest point alone
-         * would cost a bias of order the squared cell width (and the analytic risk, a sum
-         * over the points, is that of the rule itself). */
-        if (spec->kind == LOP_RULE_KIND_MODE || spec->kind == LOP_RULE_KIND_MAX_LIKELIHOOD)
+        /* The maximum-likelihood state, and the posterior mode over listed values, follow
+         * the measurement in steps of the states: interpolated, then put on the nearest
+         * state, they track the rule between measurement points, where the value at the
+         * nearest point alone would cost a bias of order the squared cell width (and the
+         * analytic risk, a sum over the points, is that of the rule itself). On a grid the
+         * mode is a vertex between states and moves smoothly. */
+        bool stepped_mode = spec->kind == LOP_RULE_KIND_MODE &&
+                            p->states_kind != LOP_STATES_GRID;
+        if (stepped_mode || spec->kind == LOP_RULE_KIND_MAX_LIKELIHOOD)
             snap_to_values(d, p->state_values, p->n_states);
         st = grid_values(d, tab, decision, NULL, true,
                          tab->count_grid ? SIM_GRID_NEAREST : SIM_GRID_INTERPOLATE);

@@ -1,7 +1,8 @@
 /* Loss curves of an estimate of a continuous state on a grid: the loss of one
  * estimate, the expected loss of every estimate of a grid under a posterior by a fast
  * path (moments, prefix sums, a sliding window, pieces, or FFT correlation), the same by
- * the direct double loop, and the Bayes estimate. No I/O; no allocation per call. */
+ * the direct double loop, and the Bayes estimate, a real number or a point of the grid.
+ * No I/O; no allocation per call. */
 #ifndef LOPSIDE_CURVE_H
 #define LOPSIDE_CURVE_H
 
@@ -37,12 +38,25 @@ typedef struct {
 typedef enum {
     LOP_CURVE_BY_MOMENTS,     /* squared, linex: closed forms in posterior moments, O(S + E) */
     LOP_CURVE_BY_PREFIX_SUMS, /* absolute, linlin, quadquad: O(S + E) */
-    LOP_CURVE_BY_WINDOW,      /* tolerance: O(S + E); relative with below >= 1: O(E log S) */
+    LOP_CURVE_BY_WINDOW,      /* tolerance: O(S + E); over cells, or relative with
+                                 below >= 1: O(E log S) */
     LOP_CURVE_BY_PIECES,      /* points: prefix sums per piece, O((S + E) P); relative
                                  estimates <= 0 by the direct sum, O(S) each */
     LOP_CURVE_BY_FFT,         /* points on one uniform lattice when cheaper: O(N log N) */
     LOP_CURVE_BY_DIRECT,      /* relative linex (no closed form): O(E S) */
 } lop_curve_method;
+
+/* Options of lop_curve_work_new, or-ed together.
+ * LOP_CURVE_CELLS: the states are the points of a grid and each holds the mass of its cell,
+ * spread evenly between the midpoints to its neighbours (the first and last cells end at
+ * the first and last state). Absolute, linlin and tolerance curves then integrate over the
+ * cells: a band edge or a quantile inside a cell splits it. Squared, quadquad, LINEX and
+ * points curves keep the sum over points, the midpoint rule of the same integral: their
+ * losses are continuous, so it is already second-order, and spreading the mass would
+ * only add the cells' own variance (Sheppard's correction, h²/12).
+ * LOP_CURVE_CONTINUOUS: the estimate is any real number; the estimates are then only the
+ * grid the expected loss is shown on. Without it the estimates are the actions. */
+enum { LOP_CURVE_CELLS = 1, LOP_CURVE_CONTINUOUS = 2 };
 
 typedef struct lop_curve_work lop_curve_work;
 typedef struct lop_curve_fft lop_curve_fft;
@@ -54,10 +68,12 @@ const char *lop_curve_invalid(const lop_curve *c);
 double lop_curve_loss(const lop_curve *c, double estimate, double state);
 
 /* Returns a workspace for c on the given grids (both strictly increasing and finite;
- * states > 0 when c is relative), or NULL when c is invalid, a grid is not, or memory
- * runs out. The workspace copies c, its knots and both grids. One per thread. */
+ * states > 0 when c is relative) with the LOP_CURVE_* options, or NULL when c is
+ * invalid, a grid is not, or memory runs out. The workspace copies c, its knots and both
+ * grids. One per thread. */
 lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, size_t n_states,
-                                   const double *estimates, size_t n_estimates);
+                                   const double *estimates, size_t n_estimates,
+                                   unsigned options);
 
 /* Frees w; NULL is a no-op. */
 void lop_curve_work_free(lop_curve_work *w);
@@ -65,20 +81,32 @@ void lop_curve_work_free(lop_curve_work *w);
 /* Returns the path lop_curve_expected takes for w. */
 lop_curve_method lop_curve_work_method(const lop_curve_work *w);
 
-/* Writes el[j] = sum_s p[s]·loss(estimates[j], states[s]) for every estimate j, by the
- * fast path (p: n_states probabilities summing to 1; el: n_estimates). */
+/* Writes el[j], the expected loss of estimates[j] under p (sum_s p[s]·loss(estimates[j],
+ * states[s]), or over the cells with LOP_CURVE_CELLS), for every estimate j, by the fast
+ * path (p: n_states probabilities summing to 1; el: n_estimates). */
 void lop_curve_expected(lop_curve_work *w, const double *p, double *el);
 
 /* Writes the same el by the direct O(E·S) double loop: the reference for the fast paths. */
 void lop_curve_expected_direct(const lop_curve_work *w, const double *p, double *el);
 
-/* Returns the Bayes estimate under p, the best point of the estimate grid (the actions
- * of format.md), and writes its expected loss to *el_min (may be NULL). squared,
- * absolute, linlin, quadquad, linex: the grid point next to the exact minimizer over
- * the interval that does better (the expected loss is convex); tolerance, points: the
- * best grid point (on a plateau of equal expected losses, its middle point; of two
- * plateaus, the first). */
+/* Returns the expected loss of the one estimate x under p by the direct O(S) sum. */
+double lop_curve_expected_at(const lop_curve_work *w, const double *p, double x);
+
+/* Returns the Bayes estimate under p and writes its expected loss to *el_min (may be
+ * NULL). With LOP_CURVE_CONTINUOUS the best real number: squared the posterior mean
+ * (relative: E[1/X]/E[1/X²]), absolute and linlin the quantile under/(under + over)
+ * (relative: of the weights p/s), quadquad and relative LINEX the root of the convex
+ * derivative, LINEX -(1/a)·log E[exp(-a·X)], tolerance the best break of the window's
+ * piecewise-linear mass, points Brent's method around the best estimate of the grid; on
+ * a plateau of equal expected losses, its middle. Without it the best point of the
+ * estimate grid (the actions): for convex curves the grid point next to the minimizer
+ * that does better; for tolerance and points the best grid point (on a plateau its
+ * middle point; of two plateaus, the first). */
 double lop_curve_bayes(lop_curve_work *w, const double *p, double *el_min);
+
+/* Returns the least loss of the curve over all errors: the expected loss with the state
+ * known when the estimate is any real number. */
+double lop_curve_least_loss(const lop_curve *c);
 
 /* Returns true when states and estimates (at least two of each) lie on one uniform
  * lattice of spacing *h, so every error estimate - state is a multiple of h; then the

@@ -28,6 +28,17 @@ double lop_decide_perfect(const lop_problem *p, const double *w);
 /* Returns the expected loss of estimating with the state known, under weights w. */
 double lop_decide_perfect_estimate(const lop_problem *p, const double *w);
 
+/* Returns a workspace for p's loss curve with the model the problem means (cells on a
+ * grid of states; any real estimate unless the file gives an estimate grid), or NULL
+ * when memory runs out. */
+lop_curve_work *lop_decide_curve_work(const lop_problem *p);
+
+/* Returns LOP_OK after writing the Bayes estimate under post to *x and its expected loss
+ * to *el (either may be NULL), or an input error at the `curve` line when that expected
+ * loss is not finite: the problem then has no finite answer. */
+lop_status lop_decide_estimate_risk(const lop_problem *p, lop_curve_work *w, const double *post,
+                                    double *x, double *el, lop_error *err);
+
 /* Returns LOP_OK after filling r->kase: posterior given every observed value, expected
  * loss per action, Bayes action, runner-up, ties and EVPI. */
 lop_status lop_decide_case(const lop_problem *p, lop_results *r, lop_error *err);

@@ -153,8 +153,10 @@ typedef struct lop_problem {
     bool estimate;
     size_t n_actions;
     char **actions;          /* choices: labels; estimates: NULL */
-    double *estimates;       /* estimates: the estimate grid */
+    double *estimates;       /* estimates: the grid the expected loss is shown on */
     size_t n_estimates;
+    bool estimates_given;    /* the file gave an estimate grid: the estimate is one of its
+                                points; else any real number, and the grid is the states' */
 
     bool payoff;             /* the file gave [payoff]; reports keep that orientation */
     double *loss;            /* choices: n_actions x n_states, always a loss; a grid cell
@@ -163,6 +165,7 @@ typedef struct lop_problem {
                                 (the mean over its bands of the least loss); NULL: the
                                 least of the cell's losses */
     lop_curve curve;         /* estimates: the loss curve (payoffs negated) */
+    int curve_line;          /* estimates: line of the `curve` key */
     double *curve_error, *curve_value; /* owned knots of a `points` curve */
 
     size_t n_rules;

@@ -178,7 +178,7 @@ static void for_each_problem(void (*check)(const named_curve *, const test_grid 
                 if (relative && !tg->positive)
                     continue;
                 lop_curve_work *w = lop_curve_work_new(&nc.c, tg->s, tg->n_states, tg->x,
-                                                       tg->n_estimates);
+                                                       tg->n_estimates, 0);
                 ck_assert_msg(w != NULL, "%s on %s: no workspace", nc.name, tg->name);
                 double *p = malloc(tg->n_states * sizeof *p);
                 for (int post = 0; post < 3; post++) {
@@ -299,7 +299,7 @@ static double *normal_posterior(const double *s)
 static double normal_bayes(const lop_curve *c, double *el, double *h)
 {
     double *s = normal_grid(h), *p = normal_posterior(s);
-    lop_curve_work *w = lop_curve_work_new(c, s, NORMAL_POINTS, s, NORMAL_POINTS);
+    lop_curve_work *w = lop_curve_work_new(c, s, NORMAL_POINTS, s, NORMAL_POINTS, 0);
     ck_assert_ptr_nonnull(w);
     double x = lop_curve_bayes(w, p, el);
     lop_curve_work_free(w);
@@ -410,7 +410,7 @@ START_TEST(tolerance_tends_to_the_higher_mode)
         double b = halves[k];
         lop_curve c = {.kind = LOP_CURVE_TOLERANCE, .below = b, .above = b, .inside = 0,
                        .outside = 1};
-        lop_curve_work *w = lop_curve_work_new(&c, s, n, s, n);
+        lop_curve_work *w = lop_curve_work_new(&c, s, n, s, n, 0);
         double el_min, x = lop_curve_bayes(w, p, &el_min);
         double near_low = 0.6 * (2 * gsl_cdf_gaussian_P(b, 0.5) - 1);
         double near_high = 0.4 * (2 * gsl_cdf_gaussian_P(b, 0.3) - 1);
@@ -444,7 +444,7 @@ static double integer_bayes(const lop_curve *c, const double *p, double from, do
     double *s = uniform_grid(0, 100, 101);
     size_t n_x = (size_t)(to - from) + 1;
     double *x = uniform_grid(from, to, n_x);
-    lop_curve_work *w = lop_curve_work_new(c, s, 101, x, n_x);
+    lop_curve_work *w = lop_curve_work_new(c, s, 101, x, n_x, 0);
     ck_assert_ptr_nonnull(w);
     double best = lop_curve_bayes(w, p, el);
     lop_curve_work_free(w);
@@ -585,7 +585,7 @@ START_TEST(points_with_many_knots_take_the_fft_path)
     }
     double *s = uniform_grid(0, 19.99, n_s), *x = uniform_grid(2, 17, n_x);
     lop_curve c = {.kind = LOP_CURVE_POINTS, .n_points = n_k, .error = e, .value = v};
-    lop_curve_work *w = lop_curve_work_new(&c, s, n_s, x, n_x);
+    lop_curve_work *w = lop_curve_work_new(&c, s, n_s, x, n_x, 0);
     ck_assert_ptr_nonnull(w);
     ck_assert_int_eq(lop_curve_work_method(w), LOP_CURVE_BY_FFT);
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
@@ -608,7 +608,7 @@ START_TEST(points_with_many_knots_take_the_fft_path)
         ck_assert(fabs(el_min - direct[best]) <= 1e-9 * top);
     }
     c.n_points = 3;
-    lop_curve_work *few = lop_curve_work_new(&c, s, n_s, x, n_x);
+    lop_curve_work *few = lop_curve_work_new(&c, s, n_s, x, n_x, 0);
     ck_assert_int_eq(lop_curve_work_method(few), LOP_CURVE_BY_PIECES);
     lop_curve_work_free(few);
     free(direct);
@@ -683,11 +683,11 @@ START_TEST(bad_curves_and_grids_are_refused)
     double s[] = {1, 2, 3}, x[] = {1, 2};
     for (size_t k = 0; k < sizeof bad / sizeof bad[0]; k++) {
         ck_assert_ptr_nonnull(lop_curve_invalid(&bad[k]));
-        ck_assert_ptr_null(lop_curve_work_new(&bad[k], s, 3, x, 2));
+        ck_assert_ptr_null(lop_curve_work_new(&bad[k], s, 3, x, 2, 0));
     }
     lop_curve good = {.kind = LOP_CURVE_SQUARED, .scale = 1};
     ck_assert_ptr_null(lop_curve_invalid(&good));
-    lop_curve_work *w = lop_curve_work_new(&good, s, 3, x, 2);
+    lop_curve_work *w = lop_curve_work_new(&good, s, 3, x, 2, 0);
     ck_assert_ptr_nonnull(w);
     ck_assert_int_eq(lop_curve_work_method(w), LOP_CURVE_BY_MOMENTS);
     lop_curve_work_free(w);
@@ -696,14 +696,201 @@ START_TEST(bad_curves_and_grids_are_refused)
     /* relative errors need states > 0 */
     good.relative = true;
     double with_zero[] = {0, 1, 2}, negative[] = {-1, 1, 2};
-    ck_assert_ptr_null(lop_curve_work_new(&good, with_zero, 3, x, 2));
-    ck_assert_ptr_null(lop_curve_work_new(&good, negative, 3, x, 2));
+    ck_assert_ptr_null(lop_curve_work_new(&good, with_zero, 3, x, 2, 0));
+    ck_assert_ptr_null(lop_curve_work_new(&good, negative, 3, x, 2, 0));
     /* grids must increase */
     good.relative = false;
     double flat[] = {1, 1, 2}, backwards[] = {2, 1};
-    ck_assert_ptr_null(lop_curve_work_new(&good, flat, 3, x, 2));
-    ck_assert_ptr_null(lop_curve_work_new(&good, s, 3, backwards, 2));
-    ck_assert_ptr_null(lop_curve_work_new(&good, s, 0, x, 2));
+    ck_assert_ptr_null(lop_curve_work_new(&good, flat, 3, x, 2, 0));
+    ck_assert_ptr_null(lop_curve_work_new(&good, s, 3, backwards, 2, 0));
+    ck_assert_ptr_null(lop_curve_work_new(&good, s, 0, x, 2, 0));
+}
+END_TEST
+
+
+/* ---- continuous estimates -------------------------------------------------------- */
+
+/* Returns the Bayes estimate of c with real estimates (options | LOP_CURVE_CONTINUOUS)
+ * over states s and posterior p, its expected loss in *el, and checks that loss against
+ * the direct sum at the same estimate. The estimate grid is the states. */
+static double continuous_bayes(const lop_curve *c, const double *s, const double *p, size_t n,
+                               unsigned options, double *el)
+{
+    lop_curve_work *w = lop_curve_work_new(c, s, n, s, n, options | LOP_CURVE_CONTINUOUS);
+    ck_assert_ptr_nonnull(w);
+    double x = lop_curve_bayes(w, p, el);
+    /* both sums run over the same n terms: rounding only */
+    ck_assert_close(*el, lop_curve_expected_at(w, p, x), 1e-12);
+    lop_curve_work_free(w);
+    return x;
+}
+
+/* The posterior 0.1, 0.2, 0.3, 0.4 on four states: as listed values (point masses) the
+ * Bayes estimates are the closed forms of each curve (DeGroot 1970, sec. 11.3-11.4;
+ * LINEX: Varian 1975, Zellner 1986; quadquad solved by hand), not states. */
+START_TEST(continuous_estimates_over_values_take_the_closed_forms)
+{
+    const double s[] = {0, 1, 2, 3}, p[] = {0.1, 0.2, 0.3, 0.4};
+    double el;
+    /* squared: the mean 2, expected loss the variance 0.1·4 + 0.2·1 + 0.4·1 = 1 */
+    lop_curve sq = {.kind = LOP_CURVE_SQUARED, .scale = 1};
+    ck_assert_close(continuous_bayes(&sq, s, p, 4, 0, &el), 2.0, 1e-12);
+    ck_assert_close(el, 1.0, 1e-12);
+    /* LINEX: -(1/a)·log sum p·exp(-a·s) */
+    lop_curve lx = {.kind = LOP_CURVE_LINEX, .scale = 1, .a = 0.7};
+    double mgf = 0;
+    for (int i = 0; i < 4; i++)
+        mgf += p[i] * exp(-0.7 * s[i]);
+    ck_assert_close(continuous_bayes(&lx, s, p, 4, 0, &el), -log(mgf) / 0.7, 1e-12);
+    /* quadquad under 1, over 4: between 1 and 2 the derivative is 2·(4·(0.1x + 0.2(x - 1))
+     * + 0.3(x - 2) + 0.4(x - 3)) = 2·(1.9x - 2.6), zero at x = 2.6/1.9 */
+    lop_curve qq = {.kind = LOP_CURVE_QUADQUAD, .under = 1, .over = 4};
+    ck_assert_close(continuous_bayes(&qq, s, p, 4, 0, &el), 2.6 / 1.9, 1e-12);
+    /* relative squared over 1..4: E[1/X]/E[1/X²] */
+    const double r[] = {1, 2, 3, 4};
+    lop_curve rs = {.kind = LOP_CURVE_SQUARED, .scale = 1, .relative = true};
+    double m1 = 0, m2 = 0;
+    for (int i = 0; i < 4; i++) {
+        m1 += p[i] / r[i];
+        m2 += p[i] / (r[i] * r[i]);
+    }
+    ck_assert_close(continuous_bayes(&rs, r, p, 4, 0, &el), m1 / m2, 1e-12);
+    /* absolute with equal weights: every point of [1, 2] is a median; the middle, 1.5 */
+    const double even[] = {0.25, 0.25, 0.25, 0.25};
+    lop_curve ab = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
+    ck_assert_close(continuous_bayes(&ab, s, even, 4, 0, &el), 1.5, 1e-12);
+    ck_assert_close(el, 1.0, 1e-12);    /* (1.5 + 0.5 + 0.5 + 1.5)/4 */
+}
+END_TEST
+
+/* Returns the integral of |x - u| over u in [a, b]: by hand, split at x. */
+static double abs_integral(double x, double a, double b)
+{
+    if (x <= a)
+        return (b - a) * (0.5 * (a + b) - x);
+    if (x >= b)
+        return (b - a) * (x - 0.5 * (a + b));
+    return 0.5 * ((x - a) * (x - a) + (b - x) * (b - x));
+}
+
+/* The same posterior on the grid 0, 1, 2, 3: the cells are [0, .5], [.5, 1.5], [1.5, 2.5],
+ * [2.5, 3], and the cumulative posterior is linear in each. The median (Berger 1985, sec.
+ * 4.4.2, from memory) is in the third cell: 1.5 + (0.5 - 0.3)/0.3 = 13/6; the linlin
+ * quantile 1/(1 + 3) = 0.25 in the second: 0.5 + (0.25 - 0.1)/0.2 = 1.25. */
+START_TEST(continuous_estimates_over_cells_interpolate_the_quantile)
+{
+    const double s[] = {0, 1, 2, 3}, p[] = {0.1, 0.2, 0.3, 0.4};
+    const double edge[] = {0, 0.5, 1.5, 2.5, 3};
+    double el;
+    lop_curve ab = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
+    double x = continuous_bayes(&ab, s, p, 4, LOP_CURVE_CELLS, &el);
+    ck_assert_close(x, 13.0 / 6, 1e-12);
+    double want = 0;
+    for (int i = 0; i < 4; i++)
+        want += p[i] / (edge[i + 1] - edge[i]) * abs_integral(x, edge[i], edge[i + 1]);
+    ck_assert_close(el, want, 1e-12);
+    lop_curve ll = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
+    ck_assert_close(continuous_bayes(&ll, s, p, 4, LOP_CURVE_CELLS, &el), 1.25, 1e-12);
+
+    /* Relative linlin on the grid 1..4 (cells [1, 1.5], .., [3.5, 4]): the minimizer is the
+     * quantile 0.25 of the weight with density p_i/(w_i·u) on cell i, whose integral over
+     * the cell is p_i/w_i·log(hi/lo), and inside a cell u = lo·(hi/lo)^t. */
+    const double r[] = {1, 2, 3, 4}, re[] = {1, 1.5, 2.5, 3.5, 4};
+    lop_curve rl = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3, .relative = true};
+    double weight[4], total = 0;
+    for (int i = 0; i < 4; i++) {
+        weight[i] = p[i] / (re[i + 1] - re[i]) * log(re[i + 1] / re[i]);
+        total += weight[i];
+    }
+    double goal = 0.25 * total, below = 0;
+    int k = 0;
+    while (below + weight[k] < goal)
+        below += weight[k++];
+    double t = (goal - below) / weight[k];
+    ck_assert_close(continuous_bayes(&rl, r, p, 4, LOP_CURVE_CELLS, &el),
+                    re[k] * pow(re[k + 1] / re[k], t), 1e-12);
+}
+END_TEST
+
+/* A band edge inside a cell counts the part of the cell it covers. Grid 0, 0.1, .., 2
+ * (cells of 0.1, halves at the ends), p_i ∝ i + 1; the band ±0.25 around 1.02 is
+ * [0.77, 1.27]: 0.8 of cell 8 [0.75, 0.85], cells 9..12 whole, 0.2 of cell 13. */
+START_TEST(tolerance_windows_count_partial_cells)
+{
+    double s[21], p[21];
+    for (int i = 0; i < 21; i++) {
+        s[i] = 0.1 * i;
+        p[i] = i + 1;
+    }
+    normalize(p, 21);
+    lop_curve c = {.kind = LOP_CURVE_TOLERANCE, .below = 0.25, .above = 0.25, .inside = 0,
+                   .outside = 1};
+    const double x[] = {1.02};
+    lop_curve_work *w = lop_curve_work_new(&c, s, 21, x, 1, LOP_CURVE_CELLS);
+    ck_assert_ptr_nonnull(w);
+    double el, direct;
+    lop_curve_expected(w, p, &el);
+    lop_curve_expected_direct(w, p, &direct);
+    double in = 0.8 * p[8] + p[9] + p[10] + p[11] + p[12] + 0.2 * p[13];
+    ck_assert_close(el, 1 - in, 1e-12);     /* sums of 21 terms: rounding only */
+    ck_assert_close(direct, 1 - in, 1e-12);
+    lop_curve_work_free(w);
+
+    /* Half-width 5 on a 0.1 grid over 0..20, a posterior uniform in the continuous
+     * reading (end cells half as heavy): the window at 10 holds exactly 10/20 of it, not
+     * the 101 whole cells (0.505) of a point count. */
+    double u[201], q[201];
+    for (int i = 0; i < 201; i++) {
+        u[i] = 0.1 * i;
+        q[i] = i == 0 || i == 200 ? 0.5 : 1;
+    }
+    normalize(q, 201);
+    lop_curve band = {.kind = LOP_CURVE_TOLERANCE, .below = 5, .above = 5, .inside = 0,
+                      .outside = 1};
+    const double ten[] = {10};
+    w = lop_curve_work_new(&band, u, 201, ten, 1, LOP_CURVE_CELLS);
+    lop_curve_expected(w, q, &el);
+    ck_assert_close(el, 0.5, 1e-12);
+    lop_curve_work_free(w);
+}
+END_TEST
+
+/* Tolerance and points curves with real estimates: the Bayes estimate's expected loss is
+ * the least of a fine scan (every 1e-4 over the states and beyond), by the direct sum. */
+START_TEST(tolerance_and_points_estimates_beat_a_fine_scan)
+{
+    double s[21], p[21];
+    for (int i = 0; i < 21; i++) {
+        s[i] = 0.1 * i;
+        p[i] = exp(-0.5 * pow((s[i] - 1.234) / 0.3, 2)) + 0.3 * (i % 3 == 0);
+    }
+    normalize(p, 21);
+    const double err[] = {-0.3, 0, 0.1, 0.4}, val[] = {2, 0, 0.5, 3};
+    lop_curve curves[] = {
+        {.kind = LOP_CURVE_TOLERANCE, .below = 0.17, .above = 0.23, .inside = 0, .outside = 1},
+        {.kind = LOP_CURVE_TOLERANCE, .below = 0.05, .above = 0.2, .inside = -1, .outside = 0,
+         .relative = true},
+        {.kind = LOP_CURVE_POINTS, .n_points = 4, .error = err, .value = val},
+    };
+    for (size_t k = 0; k < 3; k++) {
+        for (unsigned cells = 0; cells <= LOP_CURVE_CELLS; cells += LOP_CURVE_CELLS) {
+            const double *grid = curves[k].relative ? s + 1 : s;
+            const double *post = curves[k].relative ? p + 1 : p;
+            double el;
+            lop_curve_work *w = lop_curve_work_new(&curves[k], grid, 20, grid, 20,
+                                                   cells | LOP_CURVE_CONTINUOUS);
+            ck_assert_ptr_nonnull(w);
+            double x = lop_curve_bayes(w, post, &el);
+            ck_assert_close(el, lop_curve_expected_at(w, post, x), 1e-12);
+            double least = INFINITY;
+            for (int j = -5000; j <= 25000; j++)
+                least = fmin(least, lop_curve_expected_at(w, post, 1e-4 * j));
+            /* the contract: 1e-6 of the loss scale (at most 3 here) */
+            ck_assert_msg(el <= least + 3e-6, "curve %zu cells %u: %.17g above the scan's %.17g",
+                          k, cells, el, least);
+            lop_curve_work_free(w);
+        }
+    }
 }
 END_TEST
 
@@ -724,6 +911,10 @@ Suite *suite_curve(void)
     tcase_add_test(tc, fft_correlation_matches_the_direct_sum);
     tcase_add_test(tc, lattices_are_recognized);
     tcase_add_test(tc, points_with_many_knots_take_the_fft_path);
+    tcase_add_test(tc, continuous_estimates_over_values_take_the_closed_forms);
+    tcase_add_test(tc, continuous_estimates_over_cells_interpolate_the_quantile);
+    tcase_add_test(tc, tolerance_windows_count_partial_cells);
+    tcase_add_test(tc, tolerance_and_points_estimates_beat_a_fine_scan);
     suite_add_tcase(s, tc);
     return s;
 }

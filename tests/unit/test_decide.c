@@ -1,3 +1,5 @@
+#include <gsl/gsl_errno.h>
+
 #include "lopside/decide.h"
 #include "testutil.h"
 
@@ -62,6 +64,31 @@ START_TEST(payoff_files_keep_their_orientation)
 }
 END_TEST
 
+/* Relative LINEX on states from 1e-320: the relative error (x - s)/s of the lowest state
+ * is beyond the largest double (1/s overflows) for every estimate, so the expected loss
+ * has no finite value: an input error at the `curve` line (line 12) naming the states
+ * whose relative error overflows (only the lowest; the next is 1e-320 + 10/999). */
+START_TEST(an_unbounded_expected_loss_is_an_input_error)
+{
+    gsl_set_error_handler_off(); /* as main does: the root search meets NaN and says so */
+    lop_problem *p = test_problem(
+        "[problem]\ntitle = t\n[states]\nfrom = 1e-320\nto = 10\npoints = 1000\n"
+        "[prior]\nfamily = uniform\n[actions]\nestimate = yes\n[loss]\ncurve = linex\n"
+        "a = 3\nrelative = yes\n");
+    lop_error err = {0};
+    lop_results *r = lop_engine_solve(p, &err);
+    ck_assert_ptr_null(r);
+    ck_assert_int_eq(err.status, LOP_EINPUT);
+    ck_assert_int_eq(err.line, 12);
+    ck_assert_str_eq(err.section, "loss");
+    ck_assert_str_eq(err.key, "curve");
+    ck_assert_msg(strstr(err.message, "no finite value: at every estimate the loss of states "
+                                      "9.99989e-321 to 9.99989e-321") != NULL,
+                  "%s", err.message);
+    lop_problem_free(p);
+}
+END_TEST
+
 Suite *suite_decide(void)
 {
     Suite *s = suite_create("decide");
@@ -69,6 +96,7 @@ Suite *suite_decide(void)
     tcase_add_test(tc, screening_posterior_after_a_positive_result);
     tcase_add_test(tc, ties_go_to_the_earlier_action_and_are_reported);
     tcase_add_test(tc, payoff_files_keep_their_orientation);
+    tcase_add_test(tc, an_unbounded_expected_loss_is_an_input_error);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -156,36 +156,46 @@ START_TEST(estimate_lookup_agrees_at_grid_points)
 }
 END_TEST
 
-/* Bayes estimates are actions of the estimate grid: between measurement points the
- * interpolated estimate goes to the nearest of them, here the uneven values 1, 2, 4, 8
- * (a lognormal channel puts these estimates on the grid path). */
-START_TEST(interpolated_estimates_snap_to_an_uneven_estimate_grid)
+/* Without an estimate grid the estimate is any real number: between measurement points
+ * the interpolated estimate is used as it is. With one (here 1, 2, .., 8) the estimates
+ * are its points, and the interpolated estimate goes to the nearest of them. A lognormal
+ * channel puts these estimates on the grid path. */
+START_TEST(interpolated_estimates_snap_only_to_a_given_estimate_grid)
 {
-    lop_problem *p = test_problem(
-        "[problem]\ntitle = t\n[states]\nvalues = 1, 2, 4, 8\n[prior]\nweights = 1, 1, 1, 1\n"
-        "[evidence.meter]\nnoise = lognormal\nlog_sd = 0.4\n"
-        "[actions]\nestimate = yes\n[loss]\ncurve = squared\n");
-    lop_results *r = test_solve(p);
-    sim_decider dec;
-    bool no_memory;
-    ck_assert_ptr_null(sim_decider_init(&dec, p, r, -1, &no_memory));
-    ck_assert_int_eq(dec.kind, SIM_GRID_INTERPOLATE);
-    ck_assert(dec.snap_inv_h == 0); /* not uniform: binary search */
-    size_t moved = 0;
-    for (size_t i = 0; i + 1 < r->rule.n_grid; i++) {
-        sim_trial t = {.x = 0.5 * (r->rule.grid[i] + r->rule.grid[i + 1])};
-        double raw = lop_simulate_interpolate(dec.grid_value, dec.n_grid, dec.x0, dec.inv_h, t.x);
-        double best = 1;
-        for (double v = 2; v <= 8; v *= 2)
-            if (fabs(raw - v) < fabs(raw - best))
-                best = v;
-        ck_assert_close(sim_decide_estimate(&dec, &t), best, 0);
-        moved += raw != best;
+    for (int given = 0; given < 2; given++) {
+        char text[512];
+        snprintf(text, sizeof text,
+                 "[problem]\ntitle = t\n[states]\nvalues = 1, 2, 4, 8\n"
+                 "[prior]\nweights = 1, 1, 1, 1\n[evidence.meter]\nnoise = lognormal\n"
+                 "log_sd = 0.4\n[actions]\nestimate = yes\n%s[loss]\ncurve = squared\n",
+                 given ? "from = 1\nto = 8\npoints = 8\n" : "");
+        lop_problem *p = test_problem(text);
+        lop_results *r = test_solve(p);
+        sim_decider dec;
+        bool no_memory;
+        ck_assert_ptr_null(sim_decider_init(&dec, p, r, -1, &no_memory));
+        ck_assert_int_eq(dec.kind, SIM_GRID_INTERPOLATE);
+        size_t moved = 0;
+        for (size_t i = 0; i + 1 < r->rule.n_grid; i++) {
+            sim_trial t = {.x = 0.5 * (r->rule.grid[i] + r->rule.grid[i + 1])};
+            double raw =
+                lop_simulate_interpolate(dec.grid_value, dec.n_grid, dec.x0, dec.inv_h, t.x);
+            double want = raw;
+            if (given) {        /* the nearest of 1..8; a tie goes to the lower */
+                want = 1;
+                for (double v = 2; v <= 8; v++)
+                    if (fabs(raw - v) < fabs(raw - want))
+                        want = v;
+            }
+            ck_assert_close(sim_decide_estimate(&dec, &t), want, 0);
+            moved += raw != want;
+        }
+        if (given)
+            ck_assert_uint_gt(moved, 0); /* some midpoints fall between two estimates */
+        sim_decider_clear(&dec);
+        lop_results_free(r);
+        lop_problem_free(p);
     }
-    ck_assert_uint_gt(moved, 0); /* some midpoints fall between two estimates */
-    sim_decider_clear(&dec);
-    lop_results_free(r);
-    lop_problem_free(p);
 }
 END_TEST
 
@@ -412,7 +422,7 @@ Suite *suite_simulate(void)
     tcase_add_test(tc, cut_index_counts_cuts_at_or_below);
     tcase_add_test(tc, interpolation_and_nearest_point);
     tcase_add_test(tc, estimate_lookup_agrees_at_grid_points);
-    tcase_add_test(tc, interpolated_estimates_snap_to_an_uneven_estimate_grid);
+    tcase_add_test(tc, interpolated_estimates_snap_only_to_a_given_estimate_grid);
     tcase_add_test(tc, believed_rule_switches_at_its_own_criterion);
     tcase_add_test(tc, constant_payoff_is_exact_and_oriented);
     tcase_add_test(tc, same_seed_same_numbers_whatever_the_threads);

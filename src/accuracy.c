@@ -408,8 +408,8 @@ static lop_problem *at_level(const lop_problem *p, int level, bool *too_fine, lo
     return q;
 }
 
-/* The factor by which the error shrinks from q's grids to p's: the squared ratio of their
- * cells (state grid, else the rule's measurement grid). */
+/* The factor by which the error shrinks from coarse's grids to fine's: the squared ratio
+ * of their cells (state grid, else the rule's measurement grid). */
 static double error_ratio(const lop_problem *fine, const lop_results *rf,
                           const lop_problem *coarse, const lop_results *rc)
 {
@@ -419,95 +419,149 @@ static double error_ratio(const lop_problem *fine, const lop_results *rf,
     return r * r;
 }
 
+/* Returns the work of solving p once: state points times measurement points. */
+static double work_of(const lop_problem *p, const lop_results *r)
+{
+    double m = r->has_rule && r->rule.computed && r->rule.n_grid > 0 ? (double)r->rule.n_grid : 1;
+    return (double)p->n_states * m;
+}
+
+/* One answer and the problem it belongs to (NULL: the caller's problem). */
+typedef struct {
+    lop_problem *p;
+    lop_results *r;
+} answer;
+
+static void answer_free(answer *a)
+{
+    lop_results_free(a->r);
+    lop_problem_free(a->p);
+    a->r = NULL;
+    a->p = NULL;
+}
+
+/* Returns LOP_OK after solving p at [problem] refine = level into *a, or with a->r NULL
+ * when the grids would pass their limits. */
+static lop_status solve_at(const lop_problem *p, int level, const lop_progress *progress,
+                           answer *a, lop_error *err)
+{
+    a->p = NULL;
+    a->r = NULL;
+    if (level == p->refine) {
+        a->r = lop_engine_solve_progress(p, progress, err);
+        return a->r ? LOP_OK : err->status;
+    }
+    bool too_fine;
+    a->p = at_level(p, level, &too_fine, err);
+    if (!a->p)
+        return too_fine ? LOP_OK : err->status;
+    a->r = lop_engine_solve_progress(a->p, progress, err);
+    if (!a->r) {
+        answer_free(a);
+        return err->status;
+    }
+    return LOP_OK;
+}
+
+/* Returns how many halvings beyond the current level should bring the error from
+ * `reached` below `asked` when it falls as the square of the step, within the work
+ * budget; each halving multiplies the work by `growth` (2: the state grid; 4: the
+ * measurement grid too). */
+static int halvings_wanted(double reached, double asked, double work, double growth)
+{
+    int k = (int)ceil(log(reached / asked) / log(4.0));
+    if (k < 1)
+        k = 1;
+    while (k > 1 && work * pow(growth, k) > LOP_ACCURACY_WORK)
+        k--;
+    return k;
+}
+
 lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress,
                               lop_solution *out, lop_error *err)
 {
-    lop_results *fine = lop_engine_solve_progress(p, progress, err);
-    if (!fine)
-        return err->status;
-    lop_accuracy *acc = &fine->accuracy;
-    acc->asked = p->accuracy;
-    set_scales(p, fine, acc);
-    lop_problem *fine_p = NULL, *coarse_p = NULL;
-    lop_results *coarse = NULL;
+    answer fine = {0}, coarse = {0};
+    int level = p->refine;
+    if (solve_at(p, level, progress, &fine, err) != LOP_OK)
+        goto fail;
+    fine.r->accuracy.asked = p->accuracy;
+    set_scales(p, fine.r, &fine.r->accuracy);
     if (rests_on_grids(p)) {
         /* The companion: the same problem on grids with twice the step (or, for a file
-         * that asks for the coarsest level, half the step). */
-        int level = p->refine, companion = level > -1 ? level - 1 : level + 1;
-        bool too_fine;
-        coarse_p = at_level(p, companion, &too_fine, err);
-        if (!coarse_p && !too_fine)
+         * that asks for the coarsest level, half the step: then that one is the answer). */
+        int companion = level > -1 ? level - 1 : level + 1;
+        if (solve_at(p, companion, progress, &coarse, err) != LOP_OK)
             goto fail;
-        coarse = coarse_p ? lop_engine_solve_progress(coarse_p, progress, err) : NULL;
-        if (coarse_p && !coarse)
-            goto fail;
-        if (companion > level) { /* the companion is the finer: swap the roles */
-            lop_results *t = fine;
+        if (companion > level && coarse.r) {
+            answer t = fine;
             fine = coarse;
             coarse = t;
-            fine_p = coarse_p;
-            coarse_p = NULL;
-            acc = &fine->accuracy;
-            acc->asked = p->accuracy;
             level = companion;
         }
-        for (int extra = 0; coarse; extra++) {
-            const lop_problem *fp = fine_p ? fine_p : p, *cp = coarse_p ? coarse_p : p;
-            set_scales(fp, fine, acc);
+        while (coarse.r) {
+            const lop_problem *fp = fine.p ? fine.p : p, *cp = coarse.p ? coarse.p : p;
+            lop_accuracy *acc = &fine.r->accuracy;
+            acc->asked = p->accuracy;
             acc->estimated = true;
-            double ratio = error_ratio(fp, fine, cp, coarse);
-            bool last = extra >= LOP_ACCURACY_LEVELS;
-            if (compare(fp, fine, cp, coarse, ratio, false) != 0) {
+            set_scales(fp, fine.r, acc);
+            double ratio = error_ratio(fp, fine.r, cp, coarse.r);
+            if (compare(fp, fine.r, cp, coarse.r, ratio, false) != 0) {
                 lop_error_run(err, "out of memory");
                 goto fail;
             }
-            lop_problem *next_p = NULL;
-            if (acc->reached > acc->asked && !last) {
-                /* Not reached: half the step again, the finer answer as the companion. */
-                bool too_fine;
-                next_p = at_level(p, level + 1, &too_fine, err);
-                if (!next_p && !too_fine)
-                    goto fail;
-            }
-            if (!next_p) {
-                if (compare(fp, fine, cp, coarse, ratio, true) != 0) {
-                    lop_error_run(err, "out of memory");
-                    goto fail;
-                }
+            double work = work_of(fp, fine.r);
+            double growth = (fp->states_kind == LOP_STATES_GRID ? 2 : 1) * (fp->estimate ? 2 : 1);
+            if (acc->reached <= acc->asked || work * growth > LOP_ACCURACY_WORK ||
+                level >= LOP_REFINE_MAX)
                 break;
-            }
-            lop_results *next = lop_engine_solve_progress(next_p, progress, err);
-            if (!next) {
-                lop_problem_free(next_p);
+            /* Not reached: halve the steps as often as the error's fall asks (jumping
+             * over levels), and compare with the level just below the new one. */
+            int k = halvings_wanted(acc->reached, acc->asked, work, growth);
+            if (level + k > LOP_REFINE_MAX)
+                k = LOP_REFINE_MAX - level;
+            answer next = {0}, below = {0};
+            if (solve_at(p, level + k, progress, &next, err) != LOP_OK)
+                goto fail;
+            if (!next.r)
+                break; /* past the grids' limits: keep what is reached */
+            if (k > 1 && solve_at(p, level + k - 1, progress, &below, err) != LOP_OK) {
+                answer_free(&next);
                 goto fail;
             }
-            lop_results_free(coarse);
-            lop_problem_free(coarse_p);
-            coarse = fine;
-            coarse_p = fine_p;
+            answer_free(&coarse);
+            if (k > 1) {
+                answer_free(&fine);
+                coarse = below;
+            } else {
+                coarse = fine;
+            }
             fine = next;
-            fine_p = next_p;
-            acc = &fine->accuracy;
-            acc->asked = p->accuracy;
-            level++;
+            level += k;
+        }
+        if (coarse.r) {
+            const lop_problem *fp = fine.p ? fine.p : p, *cp = coarse.p ? coarse.p : p;
+            if (compare(fp, fine.r, cp, coarse.r, error_ratio(fp, fine.r, cp, coarse.r), true) !=
+                0) {
+                lop_error_run(err, "out of memory");
+                goto fail;
+            }
         }
     }
-    acc->refine = (fine_p ? fine_p : p)->refine;
-    acc->state_points = p->states_kind == LOP_STATES_GRID ? (fine_p ? fine_p : p)->n_states : 0;
+    const lop_problem *solved = fine.p ? fine.p : p;
+    lop_accuracy *acc = &fine.r->accuracy;
+    acc->refine = solved->refine;
+    acc->state_points = solved->states_kind == LOP_STATES_GRID ? solved->n_states : 0;
     char defect[512];
-    if (!check_invariants(fine_p ? fine_p : p, fine, defect, sizeof defect)) {
+    if (!check_invariants(solved, fine.r, defect, sizeof defect)) {
         lop_error_run(err, "a defect: %s; please report it with the problem file", defect);
         goto fail;
     }
-    lop_results_free(coarse);
-    lop_problem_free(coarse_p);
-    out->refined = fine_p;
-    out->results = fine;
+    answer_free(&coarse);
+    out->refined = fine.p;
+    out->results = fine.r;
     return LOP_OK;
 fail:
-    lop_results_free(coarse);
-    lop_results_free(fine);
-    lop_problem_free(coarse_p);
-    lop_problem_free(fine_p);
+    answer_free(&coarse);
+    answer_free(&fine);
     return err->status;
 }

@@ -13,8 +13,9 @@
 #include "lopside/progress.h"
 #include "lopside/results.h"
 
-/* The most halvings of the file's grids the accuracy loop makes on its own. */
-#define LOP_ACCURACY_LEVELS 3
+/* The most work (state points times measurement points of one solve) the accuracy loop
+ * spends on one problem before it reports what it reached: a few seconds on one core. */
+#define LOP_ACCURACY_WORK 1e8
 
 /* What lop_accuracy_solve returns: the results and, when the grids were refined, the
  * refined problem they belong to (the writers need that one); the caller frees both. */

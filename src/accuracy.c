@@ -5,6 +5,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "lopside/accuracy.h"
 #include "lopside/decide.h"
@@ -426,6 +427,13 @@ static double work_of(const lop_problem *p, const lop_results *r)
     return (double)p->n_states * m;
 }
 
+static double seconds_now(void)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
+}
+
 /* One answer and the problem it belongs to (NULL: the caller's problem). */
 typedef struct {
     lop_problem *p;
@@ -443,10 +451,11 @@ static void answer_free(answer *a)
 /* Returns LOP_OK after solving p at [problem] refine = level into *a, or with a->r NULL
  * when the grids would pass their limits. */
 static lop_status solve_at(const lop_problem *p, int level, const lop_progress *progress,
-                           answer *a, lop_error *err)
+                           answer *a, size_t *solves, lop_error *err)
 {
     a->p = NULL;
     a->r = NULL;
+    ++*solves;
     if (level == p->refine) {
         a->r = lop_engine_solve_progress(p, progress, err);
         return a->r ? LOP_OK : err->status;
@@ -482,7 +491,9 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
 {
     answer fine = {0}, coarse = {0};
     int level = p->refine;
-    if (solve_at(p, level, progress, &fine, err) != LOP_OK)
+    size_t solves = 0;
+    double started = seconds_now();
+    if (solve_at(p, level, progress, &fine, &solves, err) != LOP_OK)
         goto fail;
     fine.r->accuracy.asked = p->accuracy;
     set_scales(p, fine.r, &fine.r->accuracy);
@@ -490,7 +501,7 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
         /* The companion: the same problem on grids with twice the step (or, for a file
          * that asks for the coarsest level, half the step: then that one is the answer). */
         int companion = level > -1 ? level - 1 : level + 1;
-        if (solve_at(p, companion, progress, &coarse, err) != LOP_OK)
+        if (solve_at(p, companion, progress, &coarse, &solves, err) != LOP_OK)
             goto fail;
         if (companion > level && coarse.r) {
             answer t = fine;
@@ -520,11 +531,11 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
             if (level + k > LOP_REFINE_MAX)
                 k = LOP_REFINE_MAX - level;
             answer next = {0}, below = {0};
-            if (solve_at(p, level + k, progress, &next, err) != LOP_OK)
+            if (solve_at(p, level + k, progress, &next, &solves, err) != LOP_OK)
                 goto fail;
             if (!next.r)
                 break; /* past the grids' limits: keep what is reached */
-            if (k > 1 && solve_at(p, level + k - 1, progress, &below, err) != LOP_OK) {
+            if (k > 1 && solve_at(p, level + k - 1, progress, &below, &solves, err) != LOP_OK) {
                 answer_free(&next);
                 goto fail;
             }
@@ -550,6 +561,8 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
     const lop_problem *solved = fine.p ? fine.p : p;
     lop_accuracy *acc = &fine.r->accuracy;
     acc->refine = solved->refine;
+    acc->solves = solves;
+    acc->seconds = seconds_now() - started;
     acc->state_points = solved->states_kind == LOP_STATES_GRID ? solved->n_states : 0;
     char defect[512];
     if (!check_invariants(solved, fine.r, defect, sizeof defect)) {

@@ -276,8 +276,9 @@ static void print_rule(FILE *out, const lop_problem *p, const lop_results *r)
         fprintf(out, "  Bayes %s: %.6g %s per decision", p->payoff ? "payoff" : "risk",
                 lop_problem_oriented(p, rule->bayes_risk), unit);
         if (!rule->exact && rule->n_columns == 0)
-            fprintf(out, " (summed over %zu measurement %s)", rule->n_grid,
-                    rule->count_grid ? "counts" : "cells");
+            fprintf(out, rule->count_grid ? " (summed over %zu counts)"
+                                          : " (Simpson's rule over %zu measurement points)",
+                    rule->n_grid);
         fputc('\n', out);
     }
     if (p->estimate)

@@ -628,6 +628,34 @@ static lxw_row_t summary_live(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row)
     return row + 1;
 }
 
+/* How close the numbers are to the continuous model: what was asked, what was reached,
+ * and the numbers that miss it. */
+static lxw_row_t summary_accuracy(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row)
+{
+    const lop_accuracy *a = &w->r->accuracy;
+    char text[512];
+    xw_put_text(w, ws, row++, 0, "Accuracy", w->f.heading);
+    if (!a->estimated) {
+        snprintf(text, sizeof text, "asked %.3g; nothing rests on a grid: exact up to rounding",
+                 a->asked);
+        return summary_line(w, ws, row, "Accuracy", text) + 1;
+    }
+    snprintf(text, sizeof text, "asked %.3g, reached %.3g%s (each number's error estimated from "
+             "the grids at two steps, relative to its scale)", a->asked, a->reached,
+             a->reached <= a->asked ? "" : ": NOT REACHED");
+    row = summary_line(w, ws, row, "Accuracy", text);
+    if (a->worst[0]) {
+        snprintf(text, sizeof text, "%s, about %.3g", a->worst, a->worst_error);
+        row = summary_line(w, ws, row, "Largest error", text);
+    }
+    for (size_t i = 0; i < a->n_missed && i < 20; i++) {
+        snprintf(text, sizeof text, "%s: error about %.3g where %.3g is allowed",
+                 a->missed[i].name, a->missed[i].error, a->missed[i].allowed);
+        row = summary_line(w, ws, row, "Misses", text);
+    }
+    return row + 1;
+}
+
 static lxw_row_t summary_warnings(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row)
 {
     xw_put_text(w, ws, row++, 0, "Warnings", w->f.heading);
@@ -738,6 +766,7 @@ static void sheet_summary(xlsx_writer *w, lxw_worksheet *ws)
     row = summary_problem(w, ws, row);
     row = summary_headline(w, ws, row);
     row = summary_live(w, ws, row);
+    row = summary_accuracy(w, ws, row);
     row = summary_warnings(w, ws, row);
     row = summary_cautions(w, ws, row);
     row = summary_provenance(w, ws, row);

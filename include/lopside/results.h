@@ -249,6 +249,8 @@ typedef struct {
     int refine;               /* [problem] refine of that grid */
     double score_scale, state_range, measurement_span;  /* the scales of the contract */
     size_t n_clamped;         /* numbers set onto a bound they passed within accuracy */
+    size_t solves;            /* engine solves it took */
+    double seconds;           /* their wall time, with the comparisons */
 } lop_accuracy;
 
 typedef struct {

@@ -35,7 +35,8 @@ UNIT_SRC := $(wildcard tests/unit/*.c)
 UNIT_OBJ := $(patsubst tests/unit/%.c,$(BUILD)/unit/%.o,$(UNIT_SRC))
 HEADERS  := $(wildcard include/lopside/*.h) $(wildcard src/*.h) $(wildcard tests/unit/*.h)
 
-.PHONY: all demo test check-asan bench install clean deps deps-test build-tests run-tests
+.PHONY: all demo test check-asan bench install clean deps deps-test build-tests run-tests \
+        random-search
 
 all: $(BUILD)/lopside
 
@@ -99,6 +100,15 @@ bench: deps deps-test
 	$(CC) -std=c11 -O3 -march=native -fopenmp -D_POSIX_C_SOURCE=200809L tests/bench/floor.c \
 	    -o build/bench/floor -lm
 	LOPSIDE=build/bench/lopside FLOOR=build/bench/floor PYTHON=$(PYTHON) sh tests/bench/run.sh
+
+# A longer seeded random search against the continuous model than the tests run:
+# make random-search N=1000 SEED=7 prints each failure and the worst error per group.
+N    ?= 300
+SEED ?= 2
+random-search: deps deps-test
+	$(MAKE) --no-print-directory all
+	LOPSIDE=$(BUILD)/lopside $(PYTHON) tests/reference/check_continuous.py --only random \
+	    --random $(N) --seed $(SEED) --details 0
 
 install: all
 	install -D -m 755 $(BUILD)/lopside $(DESTDIR)$(PREFIX)/bin/lopside

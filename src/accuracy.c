@@ -495,6 +495,7 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
     double started = seconds_now();
     if (solve_at(p, level, progress, &fine, &solves, err) != LOP_OK)
         goto fail;
+    double first_solve = seconds_now() - started;
     fine.r->accuracy.asked = p->accuracy;
     set_scales(p, fine.r, &fine.r->accuracy);
     if (rests_on_grids(p)) {
@@ -563,6 +564,7 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
     acc->refine = solved->refine;
     acc->solves = solves;
     acc->seconds = seconds_now() - started;
+    acc->seconds_first = first_solve;
     acc->state_points = solved->states_kind == LOP_STATES_GRID ? solved->n_states : 0;
     char defect[512];
     if (!check_invariants(solved, fine.r, defect, sizeof defect)) {

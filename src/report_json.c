@@ -415,6 +415,7 @@ lop_status lop_report_json(const char *path, const lop_problem *p, const lop_res
     json_object_set_new(timing, "rule_seconds", lop_json_number(r->seconds_rule));
     json_object_set_new(timing, "solves", json_integer((json_int_t)r->accuracy.solves));
     json_object_set_new(timing, "accurate_seconds", lop_json_number(r->accuracy.seconds));
+    json_object_set_new(timing, "file_grid_seconds", lop_json_number(r->accuracy.seconds_first));
     json_object_set_new(root, "timing", timing);
     json_object_set_new(root, "accuracy", accuracy_json(&r->accuracy));
     json_object_set_new(root, "warnings", string_array(r->warnings, r->n_warnings));

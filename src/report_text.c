@@ -562,10 +562,18 @@ void lop_report_problem(FILE *out, const lop_problem *p)
     }
     for (size_t i = 0; i < p->n_channels; i++)
         print_channel_detail(out, p, &p->channels[i], sw);
-    if (p->estimate)
+    if (p->estimate && p->estimates_given)
         fprintf(out, "\n  estimates: %zu points from %.6g to %.6g\n", p->n_estimates,
                 p->estimates[0], p->estimates[p->n_estimates - 1]);
+    else if (p->estimate)
+        fprintf(out, "\n  estimates: any real number (the expected loss is shown at %zu points "
+                     "from %.6g to %.6g)\n", p->n_estimates, p->estimates[0],
+                p->estimates[p->n_estimates - 1]);
     else if (p->states_kind != LOP_STATES_GRID)
         print_score_table(out, p);
+    fprintf(out, "\n  accuracy asked: %.3g of each number's scale", p->accuracy);
+    if (p->refine)
+        fprintf(out, " (grids' steps halved %d times before solving)", p->refine);
+    fputc('\n', out);
     print_studies(out, p);
 }

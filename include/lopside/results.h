@@ -251,6 +251,7 @@ typedef struct {
     size_t n_clamped;         /* numbers set onto a bound they passed within accuracy */
     size_t solves;            /* engine solves it took */
     double seconds;           /* their wall time, with the comparisons */
+    double seconds_first;     /* the wall time of the first: one solve on the file's grids */
 } lop_accuracy;
 
 typedef struct {

@@ -319,9 +319,7 @@ static bool onto_bound(lop_accuracy *acc, double *v, double bound, bool below, d
     return false;
 }
 
-/* Checks design.md's invariants on r, setting onto its bound any number within the
- * accuracy of it; writes a sentence to defect and returns false on a violation. */
-static bool check_invariants(const lop_problem *p, lop_results *r, char *defect, size_t size)
+bool lop_accuracy_invariants(const lop_problem *p, lop_results *r, char *defect, size_t size)
 {
     lop_accuracy *acc = &r->accuracy;
     double slack = (fmax(acc->asked, acc->reached) + 1e-12) * acc->score_scale;
@@ -567,7 +565,7 @@ lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress
     acc->seconds_first = first_solve;
     acc->state_points = solved->states_kind == LOP_STATES_GRID ? solved->n_states : 0;
     char defect[512];
-    if (!check_invariants(solved, fine.r, defect, sizeof defect)) {
+    if (!lop_accuracy_invariants(solved, fine.r, defect, sizeof defect)) {
         lop_error_run(err, "a defect: %s; please report it with the problem file", defect);
         goto fail;
     }

@@ -31,6 +31,13 @@ typedef struct {
 lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress,
                               lop_solution *out, lop_error *err);
 
+/* Returns true after checking design.md's invariants on r (solved for p, with
+ * r->accuracy's asked, reached and scales set): 0 <= EVSI(n) <= EVPI and non-decreasing,
+ * the evidence's value >= 0, regrets >= 0, rates in [0, 1]. A number past its bound by
+ * less than the accuracy is set onto it (counted in n_clamped); by more, it writes a
+ * sentence naming the number and both values to defect and returns false. */
+bool lop_accuracy_invariants(const lop_problem *p, lop_results *r, char *defect, size_t size);
+
 /* Returns the score scale of p's contract: the largest |loss| of a choice table; for
  * estimates the largest |loss| of a bounded curve, else |prior_only_risk| (1 if 0). */
 double lop_accuracy_score_scale(const lop_problem *p, double prior_only_risk);

@@ -46,6 +46,7 @@ int main(void)
     srunner_add_suite(runner, suite_rule());
     srunner_add_suite(runner, suite_outfile());
     srunner_add_suite(runner, suite_curve());
+    srunner_add_suite(runner, suite_accuracy());
     srunner_add_suite(runner, suite_prior());
     srunner_add_suite(runner, suite_value());
     srunner_add_suite(runner, suite_sweep());

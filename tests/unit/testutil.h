@@ -35,6 +35,7 @@ Suite *suite_rule(void);
 Suite *suite_outfile(void);
 Suite *suite_strutil(void);
 Suite *suite_curve(void);
+Suite *suite_accuracy(void);
 Suite *suite_prior(void);
 Suite *suite_value(void);
 Suite *suite_sweep(void);

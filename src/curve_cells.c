@@ -1,16 +1,16 @@
 /* The continuous density of a grid posterior (density.h) under absolute, linlin and
- * tolerance curves: node values from the cells' masses, a quadratic with the line's mass
- * between neighbouring states, so the cumulative is a cubic in each interval. Absolute and linlin losses
+ * tolerance curves: a quadratic in each interval between neighbouring states with the
+ * interval's mass and the density's values at the states, so the cumulative is a cubic
+ * in each interval. Absolute and linlin losses
  * integrate exactly against it (prefix sums to the interval holding x, the rest of that
  * interval in closed form), their Bayes estimates invert its cumulative exactly, tolerance
  * windows are differences of its cumulative, and the best tolerance estimate is the
  * exact maximum of the window's mass, a cubic in the estimate between breaks.
  *
  * Relative curves: (x - u)/u·f(u) = (x - u)·g(u) with g = f/u, so relative absolute and
- * linlin losses are the absolute ones under the weight g; the node values of g are
- * those of f divided by s_i, and g is the quadratic between them (the implied f, u times
- * that quadratic, is an equally second-order picture of the posterior). Relative
- * tolerance bands are windows over f itself.
+ * linlin losses are the absolute ones under the weight g, read as the density of the
+ * masses p_i/s_i (the implied f, u times that density, is an equally accurate picture of
+ * the posterior). Relative tolerance bands are windows over f itself.
  *
  * Notation as in curve.c: states s[0..n-1], piece k between s_k and s_{k+1} (width h_k)
  * with coefficients poly[3k..3k+2] in t = (u - s_k)/h_k; pre[0][k] and pre[1][k] the
@@ -44,13 +44,21 @@ void cells_prepare(lop_curve_work *w, bool moments)
 {
     size_t n = w->n_states;
     lop_density_nodes(w->s, w->p, weight_factor(w), n, w->node);
+    /* Pieces that read no mass are 0: only the stretch around the posterior's mass is
+     * built (a narrow posterior on a wide grid has most of its masses exactly 0). */
+    size_t first = lop_density_first_piece(w->p, n), last = lop_density_last_piece(w->p, n);
     double *cum = w->pre[0], *mom = moments ? w->pre[1] : NULL;
     cum[0] = 0;
     if (mom)
         mom[0] = 0;
+    lop_density_sweep sweep;
+    lop_density_sweep_start(&sweep, w->s, NULL, NULL, w->node, n, first);
     for (size_t k = 0; k + 1 < n; k++) {
         double *a = w->poly + 3 * k, h = w->s[k + 1] - w->s[k];
-        lop_density_piece(w->s, w->node, n, k, a);
+        if (k < first || k > last)
+            a[0] = a[1] = a[2] = 0;
+        else
+            lop_density_sweep_piece(&sweep, k, a);
         double in = lop_density_mass(a, 1);
         cum[k + 1] = cum[k] + h * in;
         if (mom)
@@ -209,23 +217,9 @@ double cells_window(const lop_curve_work *w, double x)
     return cumulative(w, b) - cumulative(w, a);
 }
 
-/* Returns the slope of the window's mass at x: the density at each end times the end's
- * slope (0 for an empty band). */
-static double window_slope(const lop_curve_work *w, double x)
-{
-    band_end lo, hi;
-    band_ends(&w->c, x, &lo, &hi);
-    double a = end_at(lo, x), b = end_at(hi, x);
-    if (!(b > a))
-        return 0;
-    size_t hint = OUTSIDE, ka = locate(w, a, &hint);
-    hint = OUTSIDE;
-    size_t kb = locate(w, b, &hint);
-    return hi.slope * density_in(w, kb, b) - lo.slope * density_in(w, ka, a);
-}
-
-/* Returns the integral of loss(x, u) over piece k against the piece a: over·(x - u) below x and under·(u - x) above it
- * for linlin and absolute, inside or outside for tolerance. */
+/* Returns the integral of loss(x, u) over piece k against the piece a: over·(x - u)
+ * below x and under·(u - x) above it for linlin and absolute, inside or outside for
+ * tolerance. */
 static double piece_loss(const lop_curve_work *w, double x, size_t k, const double a[3])
 {
     const lop_curve *c = &w->c;
@@ -251,8 +245,10 @@ double cells_direct(const lop_curve_work *w, const double *p, double x)
     size_t n = w->n_states;
     const double *factor = weight_factor(w);
     double sum = 0, a[3];
+    lop_density_sweep sweep;
+    lop_density_sweep_start(&sweep, w->s, p, factor, NULL, n, 0);
     for (size_t k = 0; k + 1 < n; k++) {
-        lop_density_piece_of(w->s, p, factor, n, k, a);
+        lop_density_sweep_piece(&sweep, k, a);
         if (lop_density_mass(a, 1) != 0)        /* no loss from where there is no mass */
             sum += piece_loss(w, x, k, a);
     }
@@ -297,10 +293,41 @@ static size_t breaks(lop_curve_work *w, const double *v, size_t n)
     return m;
 }
 
+/* Bisection for the edge of a tie level set stops after this many halvings (far below
+ * rounding for any interval between two breaks). */
+#define EDGE_STEPS 200
+
+/* Returns the expected tolerance loss at x over the density or over points. */
+static double tolerance_at(const lop_curve_work *w, double x)
+{
+    return curve_tolerance_el(w, w->cells ? cells_window(w, x) : curve_points_window(w, x));
+}
+
+/* Returns where the expected loss crosses `level` between out (above it) and in (at or
+ * below it), by bisection: over cells the loss is continuous, so a crossing lies between. */
+static double level_edge(const lop_curve_work *w, double out, double in, double level)
+{
+    for (int it = 0; it < EDGE_STEPS; it++) {
+        double mid = 0.5 * (out + in);
+        if (mid == out || mid == in)
+            break;
+        if (tolerance_at(w, mid) > level)
+            out = mid;
+        else
+            in = mid;
+    }
+    return in;
+}
+
 /* Returns the best of the m candidate estimates x[] (increasing) with expected losses v[]
- * and writes its loss to *el: the least; on a plateau (a run of candidates tied with the
- * least whose middle ties too and, over cells, where the window's mass is flat) its
- * middle; of two separate plateaus or tied maxima, the first. */
+ * and writes its loss to *el. Estimates whose losses lie within the tie of the least count
+ * as equally good, and the first run of such candidates is taken: over points (a step
+ * function) the middle of that run when the middle ties too; over cells the middle of the
+ * interval where the loss stays within the tie, its edges found by bisection, when that
+ * middle ties too. Near a strict minimum that is the minimum itself to within rounding;
+ * where the window holds all the mass over an interval of estimates (up to a tail far
+ * below the tie) it is the interval's middle, which moves smoothly with the grid, as
+ * the tail does, where the last candidate of a run would move by whole steps. */
 static double best_candidate(const lop_curve_work *w, const double *x, const double *v,
                              size_t m, double *el)
 {
@@ -318,23 +345,22 @@ static double best_candidate(const lop_curve_work *w, const double *x, const dou
             arg = end;
         end++;
     }
-    double best = x[arg];
-    *el = v[arg];
-    if (end - 1 > first) {
-        double mid = 0.5 * (x[first] + x[end - 1]);
-        double in = w->cells ? cells_window(w, mid) : curve_points_window(w, mid);
-        double at_mid = curve_tolerance_el(w, in);
-        /* Over cells the mass is smooth: near a strict maximum a break may tie with it
-         * without a plateau, so a plateau needs the mass to be flat at its middle too. */
-        double flat = w->cells ? fabs(window_slope(w, mid) * (w->c.inside - w->c.outside)) *
-                                     (w->s[w->n_states - 1] - w->s[0])
-                               : 0;
-        if (at_mid - least <= tie && flat <= tie) {
-            best = mid;
-            *el = fmin(least, at_mid);
+    double lo = x[first], hi = x[end - 1];
+    if (w->cells) {
+        if (first > 0)
+            lo = level_edge(w, x[first - 1], x[first], least + tie);
+        if (end < m)
+            hi = level_edge(w, x[end], x[end - 1], least + tie);
+    }
+    if (hi > lo) {
+        double mid = 0.5 * (lo + hi), at_mid = tolerance_at(w, mid);
+        if (at_mid - least <= tie) {
+            *el = at_mid;
+            return mid;
         }
     }
-    return best;
+    *el = v[arg];
+    return x[arg];
 }
 
 /* Appends to (x, v) the stationary points of the window's mass strictly inside the piece

@@ -51,10 +51,10 @@ typedef enum {
  * LOP_CURVE_CELLS: the states are the points of a grid and each holds the mass of its cell
  * (between the midpoints to its neighbours; the first and last cells end at the first and
  * last state). Absolute, linlin and tolerance curves then integrate over the continuous
- * density of those masses (density.h: node values mass / cell width, a quadratic between
- * states, the cumulative a cubic): a band end or a quantile inside an interval splits it
- * exactly. Squared, quadquad, LINEX and points curves keep the sum over points, the
- * midpoint rule of the same integral: the first three losses are smooth enough for it to
+ * density of those masses (density.h: a quadratic between neighbouring states with the
+ * interval's mass, the cumulative a cubic): a band end or a quantile inside an interval
+ * splits it exactly. Squared, quadquad, LINEX and points curves keep the sum over points,
+ * the midpoint rule of the same integral: the first three losses are smooth enough for it to
  * be second-order with no oscillating term of that order, and spreading the mass would
  * only add the cells' own variance (Sheppard's correction, h²/12).
  * LOP_CURVE_CONTINUOUS: the estimate is any real number; the estimates are then only the
@@ -100,8 +100,9 @@ double lop_curve_expected_at(const lop_curve_work *w, const double *p, double x)
  * (relative: E[1/X]/E[1/X²]), absolute and linlin the quantile under/(under + over)
  * (relative: of the weights p/s), quadquad and relative LINEX the root of the convex
  * derivative, LINEX -(1/a)·log E[exp(-a·X)], tolerance the exact maximum of the window's
- * mass (over cells a cubic between breaks; over points a step function), points Brent's method around the best estimate of the grid; on
- * a plateau of equal expected losses, its middle. Without it the best point of the
+ * mass (over cells a cubic between breaks; over points a step function), points Brent's
+ * method around the best estimate of the grid; on a plateau of equal expected losses, its
+ * middle. Without it the best point of the
  * estimate grid (the actions): for convex curves the grid point next to the minimizer
  * that does better; for tolerance and points the best grid point (on a plateau its
  * middle point; of two plateaus, the first). */

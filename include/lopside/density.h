@@ -1,18 +1,17 @@
 /* A grid posterior as a continuous density. Cell i of a grid s[0..n-1] runs between the
  * midpoints to its neighbours (the end cells are halves) and holds the mass p[i]. The
- * density's node values are v_i = p_i / width_i, and between neighbouring points it is a
- * quadratic: the line through (s_k, v_k) and (s_{k+1}, v_{k+1}) corrected by the
- * curvature the neighbouring second differences estimate, with the line's mass. A line
- * alone (the density continuous and piecewise linear) errs by h²/2·t(1-t)·f'' at the
- * position t in its interval: its cumulative and quantiles converge smoothly, but the
- * best position of a tolerance window, where the densities at the two band ends are
- * equal, wanders by O(h²) with where the ends fall in their intervals, and Richardson's
- * rule (accuracy.h) fails on it. The corrected density errs by a smooth O(h²) and an
- * O(h³) remainder. Each piece keeps the mass of the line, so the density integrates to
- * sum p exactly, and stays >= 0 (the correction is capped where it would not). It may
- * step by O(h³) at a state; its cumulative, a cubic in each interval, is continuous.
- * Quantiles, window masses, window maxima and integrals of piecewise-polynomial losses
- * against it converge as O(h²) with no oscillating term of that order.
+ * density is a quadratic in each interval between neighbouring states, fixed by three
+ * numbers: the interval's mass (the parts of the two cells on its side of their states,
+ * split by the slope the neighbours give; the masses sum to sum p exactly) and the
+ * density's values at its two ends (the cells' averages corrected by the curvature the
+ * neighbours give; shared by the intervals beside a state, so the density is continuous).
+ * It errs by O(h³), every error term smooth: its cumulative, a cubic in each interval, its
+ * quantiles, window masses and window maxima and integrals of piecewise-polynomial losses
+ * against it converge with no term that oscillates with a point's position in its cell,
+ * as Richardson's rule in the accuracy loop (accuracy.h) needs. (The piecewise-linear
+ * density through the cells' averages would leave such a term of O(h²) in the best
+ * position of a tolerance window, where the densities at the band's two ends are equal.)
+ * The values are capped so that the density is >= 0; the caps change no mass.
  *
  * A piece is written as q(t) = a[0] + a[1]·t + a[2]·t² with t = (u - s_k)/(s_{k+1} - s_k)
  * in [0, 1]; its mass from s_k to s_k + t·h is h·lop_density_mass(a, t). No allocation. */
@@ -25,16 +24,42 @@
  * neighbours, the first and last cells ending at s[0] and s[n-1]. */
 double lop_density_width(const double *s, size_t n, size_t i);
 
-/* Writes the node values v[i] = p[i]·factor[i] / width_i (factor NULL: 1) and returns
- * sum p[i]·factor[i], the density's integral. */
+/* Writes the cells' averages v[i] = p[i]·factor[i] / width_i (factor NULL: 1) and
+ * returns sum p[i]·factor[i], the density's integral. */
 double lop_density_nodes(const double *s, const double *p, const double *factor, size_t n,
                          double *v);
 
-/* Writes piece k (0 <= k < n - 1) of the density with node values v[0..n-1]. */
-void lop_density_piece(const double *s, const double *v, size_t n, size_t k, double a[3]);
+/* The ring of lop_density_sweep: the values a piece needs lie within 6 states. */
+#define LOP_DENSITY_RING 8
 
-/* Writes the same piece from the masses p (node values p[i]·factor[i] / width_i, factor
- * NULL: 1), without an array of node values. */
+/* Walks the pieces of a grid's density in increasing order, each in O(1). */
+typedef struct {
+    const double *s, *p, *factor, *v;
+    size_t n;
+    size_t n_raw, n_right, n_mean, n_node;    /* the next index of each ring to fill */
+    double raw[LOP_DENSITY_RING], right[LOP_DENSITY_RING];
+    double mean[LOP_DENSITY_RING], node[LOP_DENSITY_RING], width[LOP_DENSITY_RING];
+} lop_density_sweep;
+
+/* Starts w on the grid s[0..n-1] (n >= 2) at piece k: of the node values v (the cells'
+ * averages, as lop_density_nodes writes), or, with v NULL, of the masses p·factor
+ * (factor NULL: 1). */
+void lop_density_sweep_start(lop_density_sweep *w, const double *s, const double *p,
+                             const double *factor, const double *v, size_t n, size_t k);
+
+/* Writes piece k of w's density (k from the start, increasing by one each call). */
+void lop_density_sweep_piece(lop_density_sweep *w, size_t k, double a[3]);
+
+/* Returns the first piece that may have mass, reading masses p[0..n-1] (n >= 2): the
+ * interval before the first state with mass; the density is 0 before it. */
+size_t lop_density_first_piece(const double *p, size_t n);
+
+/* Returns the last piece that may have mass: the interval after the last state with
+ * mass; the density is 0 after it. */
+size_t lop_density_last_piece(const double *p, size_t n);
+
+/* Writes piece k (0 <= k < n - 1) of the density of the masses p·factor (factor NULL:
+ * 1) alone: O(1). */
 void lop_density_piece_of(const double *s, const double *p, const double *factor, size_t n,
                           size_t k, double a[3]);
 

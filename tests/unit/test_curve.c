@@ -764,24 +764,26 @@ START_TEST(continuous_estimates_over_values_take_the_closed_forms)
 }
 END_TEST
 
-/* The hand example of the density over cells (density.h): grid 0..4, masses 0, 1/4, 1/2,
- * 1/4, 0. Node values (mass / cell width 1) 0, 1/4, 1/2, 1/4, 0; second differences 0,
- * -1/2, 0 at nodes 1..3 (the end nodes take their neighbours'), so the bend K of pieces
- * 1 and 2 is -1/4, of pieces 0 and 3 it is 0. By hand, with t the position in a piece,
- * line - K/2·(t(1-t) - 1/6): piece 0: t/4; piece 1: 11/48 + 3t/8 - t²/8; piece 2:
- * 23/48 - t/8 - t²/8; piece 3: (1-t)/4. Their masses 1/8, 3/8, 3/8, 1/8 are the lines'
- * and sum to 1. */
+/* The hand example of the density over cells (density.h), worked by hand: grid 0..4,
+ * masses 0, 1/4, 1/2, 1/4, 0, cells' averages v = 0, 1/4, 1/2, 1/4, 0. The right parts
+ * of the cells, m/2 + (1/8)·(v_{j+1} - v_{j-1})/2, are 0, 5/32, 1/4, 3/32, 0, so the
+ * intervals hold 3/32, 13/32, 13/32, 3/32. The values at the states, v - (1/24)·(second
+ * difference) with the ends extrapolated ((4·v_0 - v_1)/3 = -1/12, kept at 0), are 0,
+ * 1/4, 25/48, 1/4, 0, none above three times a mean beside it. Each piece is the line
+ * through its end values plus 6·beta·t(1-t), beta = mean - (sum of the end values)/2:
+ * piece 0: t/16 + 3t²/16; piece 1: 1/4 + 19t/48 - t²/8; piece 2: 25/48 - 7t/48 - t²/8;
+ * piece 3: (4 - 7t + 3t²)/16. */
 static double hand_mass(int k, double t)   /* mass of piece k over [0, t] */
 {
     switch (k) {
     case 0:
-        return t * t / 8;
+        return t * t / 32 + t * t * t / 16;
     case 1:
-        return 11 * t / 48 + 3 * t * t / 16 - t * t * t / 24;
+        return t / 4 + 19 * t * t / 96 - t * t * t / 24;
     case 2:
-        return 23 * t / 48 - t * t / 16 - t * t * t / 24;
+        return 25 * t / 48 - 7 * t * t / 96 - t * t * t / 24;
     default:
-        return t / 4 - t * t / 8;
+        return (4 * t - 3.5 * t * t + t * t * t) / 16;
     }
 }
 
@@ -796,7 +798,8 @@ static double hand_cumulative(double u)
 }
 
 /* The absolute-loss estimate is the median (Berger 1985, sec. 4.4.2, from memory), 2 by
- * symmetry, and its expected loss 2·∫_0^2 (2 - u) f(u) du = 2·(1/6 + 1/6) = 2/3 by hand; the linlin estimate (under 1, over 3) is the quantile 1/4, found here by
+ * symmetry, and its expected loss 2·∫_0^2 (2 - u) f(u) du = 2·(23/192 + 13/72) = 173/288
+ * by hand; the linlin estimate (under 1, over 3) is the quantile 1/4, found here by
  * bisection on hand_cumulative; the median, 5% and 95% quantiles of the same masses by
  * lop_density_quantiles agree with bisection too. */
 START_TEST(estimates_over_cells_follow_the_density)
@@ -805,7 +808,7 @@ START_TEST(estimates_over_cells_follow_the_density)
     double el;
     lop_curve ab = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
     ck_assert_close(continuous_bayes(&ab, s, p, 5, LOP_CURVE_CELLS, &el), 2.0, 1e-12);
-    ck_assert_close(el, 2.0 / 3, 1e-12);
+    ck_assert_close(el, 173.0 / 288, 1e-12);
     const double q[] = {0.05, 0.25, 0.5, 0.95};
     double want[4], got[4];
     for (int j = 0; j < 4; j++) {
@@ -925,19 +928,21 @@ static void normal_cells(double mu, double sigma, double lo, double hi, size_t n
 
 /* The density over cells converges smoothly: for a normal posterior on grids of 201, 401
  * and 801 points, each number's error falls at least threefold per halving of the step
- * (Richardson's rule assumes about fourfold; the error estimate of accuracy.c is a third
- * of the difference), or is already within rounding (n·2^-52 of its scale), and the
- * extrapolation (4·q_{h/2} - q_h)/3 of 401 and 801 points is within 1e-7 of the closed
- * form (of the state range for positions, absolute for the probability). Closed forms:
- * quantiles mu + sigma·Phi^-1(q) (GSL's gsl_cdf_ugaussian_Pinv, as scipy's norm.ppf); the
- * absolute estimate is the median and the linlin one (under 1, over 3) the quantile 1/4
- * (Berger 1985, sec. 4.4.2, from memory); for a symmetric unimodal posterior the window
- * of half-width a holds most mass centred on the mean (its mass's slope f(x + a) -
- * f(x - a) vanishes only there), so the tolerance estimate is mu and its window holds
- * 2·Phi(a/sigma) - 1. The range [mu - 8 sigma, mu + 8.7 sigma] leaves out less than 1e-15
- * of the normal, and is not symmetric about mu, so no error vanishes by symmetry of the
- * grid. For the median and the tolerance estimate the O(h²) term vanishes by symmetry
- * of the posterior, and what falls is the smaller remainder. */
+ * (Richardson's rule in accuracy.c assumes fourfold and takes a third of the difference
+ * as the error; a faster fall only makes that estimate cautious), or is already within
+ * rounding (n·2^-52 of its scale), and the extrapolation (4·q_{h/2} - q_h)/3 of 401 and
+ * 801 points is within 1e-7 of the closed form (of the state range for positions,
+ * absolute for the probability). Closed forms: quantiles mu + sigma·Phi^-1(q) (GSL's
+ * gsl_cdf_ugaussian_Pinv, as scipy's norm.ppf); the absolute estimate is the median and
+ * the linlin one (under 1, over 3) the quantile 1/4 (Berger 1985, sec. 4.4.2, from
+ * memory); for a symmetric unimodal posterior the window of half-width a holds most mass
+ * centred on the mean (its mass's slope f(x + a) - f(x - a) vanishes only there), so the
+ * tolerance estimate is mu and its window holds 2·Phi(a/sigma) - 1. The range
+ * [mu - 8 sigma, mu + 8.7 sigma] leaves out less than 1e-15 of the normal and is not
+ * symmetric about mu, so no error vanishes by symmetry of the grid. (With the cells'
+ * averages joined by lines, the tolerance estimate's error would not fall steadily: the
+ * densities at the band's ends would err by h²/2·t(1-t)·f'', t their places in their
+ * intervals.) */
 START_TEST(cells_converge_smoothly_to_the_normal_closed_forms)
 {
     const double mu = 0.3, sigma = 0.25, lo = mu - 8 * sigma, hi = mu + 8.7 * sigma;

@@ -222,16 +222,17 @@ static double run(const double *a, size_t lo, size_t hi)
     return a[hi] - a[lo];
 }
 
-/* Returns sum p·loss(x, s), or over cells sum p·(the cell's average loss), by the direct
- * sum (states without mass are skipped, so an infinite loss there does not turn the sum
- * into NaN). */
+/* Returns sum p·loss(x, s), or over cells the integral of the loss against the density
+ * (cells_direct), by the direct sum (states without mass are skipped, so an infinite loss
+ * there does not turn the sum into NaN). */
 static double direct_at(const lop_curve_work *w, const double *p, double x)
 {
+    if (curve_by_cells(w))
+        return cells_direct(w, p, x);
     double sum = 0;
-    bool cells = curve_by_cells(w);
     for (size_t i = 0; i < w->n_states; i++)
         if (p[i] != 0)
-            sum += p[i] * (cells ? cells_loss(w, x, i) : lop_curve_loss(&w->c, x, w->s[i]));
+            sum += p[i] * lop_curve_loss(&w->c, x, w->s[i]);
     return sum;
 }
 
@@ -744,7 +745,7 @@ static void prepare(lop_curve_work *w, const double *p)
     case LOP_CURVE_LINLIN:
         set_center(w, p);
         if (w->cells)
-            cells_linlin_prepare(w);
+            cells_prepare(w, true);
         else
             set_prefix(w, p, 1, 2, 0);
         break;
@@ -758,7 +759,10 @@ static void prepare(lop_curve_work *w, const double *p)
         break;
     case LOP_CURVE_TOLERANCE:
         set_center(w, p);
-        set_prefix(w, p, 0, 1, 0);
+        if (w->cells)
+            cells_prepare(w, false);
+        else
+            set_prefix(w, p, 0, 1, 0);
         break;
     case LOP_CURVE_POINTS:
         set_center(w, p);           /* the FFT path needs only the mass, for ties */
@@ -1033,8 +1037,10 @@ void lop_curve_work_free(lop_curve_work *w)
     lop_curve_fft_free(w->fft);
     gsl_root_fsolver_free(w->solver);
     gsl_min_fminimizer_free(w->minimizer);
-    free(w->edge);
+    free(w->node);
+    free(w->poly);
     free(w->cand);
+    free(w->cand_el);
     free(w);
 }
 
@@ -1139,20 +1145,6 @@ static lop_curve_method default_method(const lop_curve *c)
     }
 }
 
-/* Returns false when memory runs out; sets the edges of the cells: the midpoints between
- * states, and the first and last state. */
-static bool set_edges(lop_curve_work *w)
-{
-    size_t n = w->n_states;
-    if (!(w->edge = malloc((n + 1) * sizeof *w->edge)))
-        return false;
-    w->edge[0] = w->s[0];
-    for (size_t i = 1; i < n; i++)
-        w->edge[i] = 0.5 * (w->s[i - 1] + w->s[i]);
-    w->edge[n] = w->s[n - 1];
-    return true;
-}
-
 lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, size_t n_states,
                                    const double *estimates, size_t n_estimates,
                                    unsigned options)
@@ -1179,10 +1171,15 @@ lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, siz
     w->continuous = (options & LOP_CURVE_CONTINUOUS) != 0;
     w->range_lo = w->continuous ? states[0] : estimates[0];
     w->range_hi = w->continuous ? states[n_states - 1] : estimates[n_estimates - 1];
-    if (w->cells && !set_edges(w))
+    if (curve_by_cells(w) && (!(w->node = malloc(n_states * sizeof *w->node)) ||
+                              !(w->poly = malloc(3 * (n_states - 1) * sizeof *w->poly))))
         goto fail;
+    /* continuous tolerance: at most 2·n_states + 1 breaks, then the breaks and up to two
+     * stationary points between each pair as candidates */
+    size_t n_breaks = 2 * n_states + 1;
     if (w->continuous && c->kind == LOP_CURVE_TOLERANCE &&
-        !(w->cand = malloc((2 * (n_states + 1) + 1) * sizeof *w->cand)))
+        (!(w->cand = malloc(4 * n_breaks * sizeof *w->cand)) ||
+         !(w->cand_el = malloc(3 * n_breaks * sizeof *w->cand_el))))
         goto fail;
     if (w->continuous && c->kind == LOP_CURVE_POINTS &&
         !(w->minimizer = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent)))

@@ -1,17 +1,29 @@
-/* The cell model of a grid posterior: each state's mass spread evenly over its cell, the
- * cells meeting at the midpoints between states and ending at the first and last state,
- * so the cumulative posterior is piecewise linear. Absolute and linlin losses integrate
- * exactly over it (a quantile inside a cell splits the cell), tolerance bands count the
- * part of a cell they cover, and the best tolerance estimate is found among the breaks of
- * the window's mass.
+/* The continuous density of a grid posterior (density.h) under absolute, linlin and
+ * tolerance curves: a quadratic in each interval between neighbouring states with the
+ * interval's mass and the density's values at the states, so the cumulative is a cubic
+ * in each interval. Absolute and linlin losses
+ * integrate exactly against it (prefix sums to the interval holding x, the rest of that
+ * interval in closed form), their Bayes estimates invert its cumulative exactly, tolerance
+ * windows are differences of its cumulative, and the best tolerance estimate is the
+ * exact maximum of the window's mass, a cubic in the estimate between breaks.
  *
- * Notation as in curve.c: edges e[0..n] (cell i is [e_i, e_{i+1}], width w_i), posterior
- * p, density q_i = p_i / w_i on cell i, weight c(u) = 1 or 1/u (relative), m1 the
- * posterior mean the moments are taken about. */
+ * Relative curves: (x - u)/u·f(u) = (x - u)·g(u) with g = f/u, so relative absolute and
+ * linlin losses are the absolute ones under the weight g, read as the density of the
+ * masses p_i/s_i (the implied f, u times that density, is an equally accurate picture of
+ * the posterior). Relative tolerance bands are windows over f itself.
+ *
+ * Notation as in curve.c: states s[0..n-1], piece k between s_k and s_{k+1} (width h_k)
+ * with coefficients poly[3k..3k+2] in t = (u - s_k)/h_k; pre[0][k] and pre[1][k] the
+ * weight and the moment about m1 below s_k. */
 #include <math.h>
+#include <stdint.h>
 
 #include "curve_private.h"
+#include "lopside/density.h"
 #include "lopside/interp.h"
+
+/* No piece: u lies outside [s_0, s_{n-1}], where the density is 0. */
+#define OUTSIDE SIZE_MAX
 
 bool curve_by_cells(const lop_curve_work *w)
 {
@@ -21,60 +33,100 @@ bool curve_by_cells(const lop_curve_work *w)
     return k == LOP_CURVE_ABSOLUTE || k == LOP_CURVE_LINLIN || k == LOP_CURVE_TOLERANCE;
 }
 
-/* Returns the cell holding t (e[k] <= t < e[k+1]), clamped to the cells. */
-static size_t cell_of(const lop_curve_work *w, double t)
+/* Returns the factor of the weight the curve integrates: 1/s for relative absolute and
+ * linlin curves, else none (NULL). */
+static const double *weight_factor(const lop_curve_work *w)
 {
-    size_t k = lop_count_at_most(w->edge, w->n_states + 1, t);
-    if (k == 0)
-        return 0;
-    return k > w->n_states ? w->n_states - 1 : k - 1;
+    return w->c.relative && w->c.kind != LOP_CURVE_TOLERANCE ? w->inv_s : NULL;
 }
 
-/* Writes the weight and first moment of cell i between its lower edge and t (e_i <= t <=
- * e_{i+1}): q·(t - e_i) and q·(t - e_i)·((t + e_i)/2 - m1), or, relative, the integrals
- * of q/u and q/u·(u - m1): q·log(t/e_i) and q·(t - e_i) - m1·q·log(t/e_i). */
-static void cell_part(const lop_curve_work *w, size_t i, double t, double *weight,
-                      double *moment)
-{
-    double lo = w->edge[i], q = w->p[i] / (w->edge[i + 1] - lo), len = t - lo;
-    if (!w->c.relative) {
-        *weight = q * len;
-        *moment = q * len * (0.5 * (t + lo) - w->center);
-    } else {
-        *weight = q * log1p(len / lo);
-        *moment = q * len - w->center * *weight;
-    }
-}
-
-void cells_linlin_prepare(lop_curve_work *w)
-{
-    double *a = w->pre[0], *b = w->pre[1];
-    a[0] = b[0] = 0;
-    for (size_t i = 0; i < w->n_states; i++) {
-        double weight, moment;
-        cell_part(w, i, w->edge[i + 1], &weight, &moment);
-        a[i + 1] = a[i] + weight;
-        b[i + 1] = b[i] + moment;
-    }
-}
-
-/* Writes the weight W(x) and moment V(x) of the cells' mass below x. */
-static void below(const lop_curve_work *w, double x, double *weight, double *moment)
+void cells_prepare(lop_curve_work *w, bool moments)
 {
     size_t n = w->n_states;
-    if (x <= w->edge[0]) {
-        *weight = *moment = 0;
+    lop_density_nodes(w->s, w->p, weight_factor(w), n, w->node);
+    /* Pieces that read no mass are 0: only the stretch around the posterior's mass is
+     * built (a narrow posterior on a wide grid has most of its masses exactly 0). */
+    size_t first = lop_density_first_piece(w->p, n), last = lop_density_last_piece(w->p, n);
+    double *cum = w->pre[0], *mom = moments ? w->pre[1] : NULL;
+    cum[0] = 0;
+    if (mom)
+        mom[0] = 0;
+    lop_density_sweep sweep;
+    lop_density_sweep_start(&sweep, w->s, NULL, NULL, w->node, n, first);
+    for (size_t k = 0; k + 1 < n; k++) {
+        double *a = w->poly + 3 * k, h = w->s[k + 1] - w->s[k];
+        if (k < first || k > last)
+            a[0] = a[1] = a[2] = 0;
+        else
+            lop_density_sweep_piece(&sweep, k, a);
+        double in = lop_density_mass(a, 1);
+        cum[k + 1] = cum[k] + h * in;
+        if (mom)
+            mom[k + 1] = mom[k] + h * ((w->s[k] - w->center) * in + h * lop_density_moment(a, 1));
+    }
+}
+
+/* Returns the piece holding u (s_k <= u < s_{k+1}; the last piece also holds s_{n-1}), or
+ * OUTSIDE. *hint is the piece found last: when u lies at or above it, the search walks
+ * forward from it, so a sweep with increasing u costs O(n) in all. */
+static size_t locate(const lop_curve_work *w, double u, size_t *hint)
+{
+    size_t n = w->n_states;
+    if (!(u >= w->s[0]) || u > w->s[n - 1])
+        return OUTSIDE;
+    size_t k = *hint;
+    if (k != OUTSIDE && k + 1 < n && w->s[k] <= u) {
+        while (k + 2 < n && w->s[k + 1] <= u)
+            k++;
+    } else {
+        k = lop_count_at_most(w->s, n, u);
+        k = k == 0 ? 0 : k - 1;
+        if (k + 1 >= n)
+            k = n - 2;
+    }
+    *hint = k;
+    return k;
+}
+
+/* Returns the weight below u when u lies in piece k (or OUTSIDE). */
+static double cumulative_in(const lop_curve_work *w, size_t k, double u)
+{
+    if (k == OUTSIDE)
+        return u < w->s[0] ? 0 : w->pre[0][w->n_states - 1];
+    double h = w->s[k + 1] - w->s[k];
+    return w->pre[0][k] + h * lop_density_mass(w->poly + 3 * k, (u - w->s[k]) / h);
+}
+
+/* Returns the density at u when u lies in piece k (or OUTSIDE). */
+static double density_in(const lop_curve_work *w, size_t k, double u)
+{
+    if (k == OUTSIDE)
+        return 0;
+    return lop_density_at(w->poly + 3 * k, (u - w->s[k]) / (w->s[k + 1] - w->s[k]));
+}
+
+/* Returns the weight below u. */
+static double cumulative(const lop_curve_work *w, double u)
+{
+    size_t hint = OUTSIDE;
+    return cumulative_in(w, locate(w, u, &hint), u);
+}
+
+/* Writes the weight W(x) and moment V(x) about m1 of the density below x. */
+static void below(const lop_curve_work *w, double x, double *weight, double *moment)
+{
+    size_t n = w->n_states, hint = OUTSIDE;
+    size_t k = locate(w, x, &hint);
+    if (k == OUTSIDE) {
+        bool above = x > w->s[n - 1];
+        *weight = above ? w->pre[0][n - 1] : 0;
+        *moment = above ? w->pre[1][n - 1] : 0;
         return;
     }
-    if (x >= w->edge[n]) {
-        *weight = w->pre[0][n];
-        *moment = w->pre[1][n];
-        return;
-    }
-    size_t k = cell_of(w, x);
-    cell_part(w, k, x, weight, moment);
-    *weight += w->pre[0][k];
-    *moment += w->pre[1][k];
+    const double *a = w->poly + 3 * k;
+    double h = w->s[k + 1] - w->s[k], t = (x - w->s[k]) / h, in = lop_density_mass(a, t);
+    *weight = w->pre[0][k] + h * in;
+    *moment = w->pre[1][k] + h * ((w->s[k] - w->center) * in + h * lop_density_moment(a, t));
 }
 
 /* over·E[c·(x - u); u < x] + under·E[c·(u - x); u > x] with y = x - m1:
@@ -85,131 +137,131 @@ double cells_linlin_at(const lop_curve_work *w, double x, double under, double o
     double weight, moment, y = x - w->center;
     below(w, x, &weight, &moment);
     return over * (y * weight - moment) +
-           under * ((w->pre[1][n] - moment) - y * (w->pre[0][n] - weight));
-}
-
-/* Returns the point of cell k where the weight below reaches goal (pre[0][k] <= goal <=
- * pre[0][k+1]): linear in the cell, or, relative, e_k·(e_{k+1}/e_k)^t. */
-static double cell_invert(const lop_curve_work *w, size_t k, double goal)
-{
-    const double *a = w->pre[0];
-    double lo = w->edge[k], hi = w->edge[k + 1], in = a[k + 1] - a[k];
-    double t = in > 0 ? (goal - a[k]) / in : 0;
-    t = t < 0 ? 0 : t > 1 ? 1 : t;
-    if (!w->c.relative)
-        return lo + t * (hi - lo);
-    return lo * exp(t * log1p((hi - lo) / lo));
+           under * ((w->pre[1][n - 1] - moment) - y * (w->pre[0][n - 1] - weight));
 }
 
 /* The derivative of cells_linlin_at is over·W(x) - under·(W_total - W(x)), zero where W
- * reaches tau·W_total, tau = under/(under + over) (Berger 1985, sec. 4.4.2, from memory).
- * W is continuous and non-decreasing, so the minimizers are an interval: a point, or a
- * run of cells without mass. */
+ * reaches tau·W_total, tau = under/(under + over) (Berger 1985, sec. 4.4.2, from memory):
+ * the quantile tau of the weight, inverted exactly in its piece. W is continuous and
+ * non-decreasing, so the minimizers are an interval: a point, or a run of pieces
+ * without weight. */
 double cells_linlin_bayes(const lop_curve_work *w, double under, double over)
 {
     const double *a = w->pre[0];
     size_t n = w->n_states;
-    double total = a[n], goal = under / (under + over) * total;
+    double total = a[n - 1], goal = under / (under + over) * total;
     double tie = CURVE_TIE_RELATIVE * total;
-    size_t k = 0;                                /* first cell whose upper edge reaches goal */
-    while (k + 1 < n && a[k + 1] < goal)
+    size_t k = 0;                               /* first piece whose upper end reaches goal */
+    while (k + 2 < n && a[k + 1] < goal)
         k++;
-    double lo = cell_invert(w, k, goal);
+    double h = w->s[k + 1] - w->s[k];
+    double lo = w->s[k] + h * lop_density_invert(w->poly + 3 * k, (goal - a[k]) / h);
     if (a[k + 1] - goal > tie)
         return lo;
-    /* goal is met at the upper edge of cell k: cells without mass after it tie. */
+    /* goal is met at the upper end of piece k: pieces without weight after it tie. */
     size_t j = k + 1;
-    while (j < n && a[j + 1] - goal <= tie)
+    while (j + 1 < n && a[j + 1] - goal <= tie)
         j++;
-    return 0.5 * (lo + w->edge[j]);
+    return 0.5 * (lo + w->s[j]);
 }
 
-/* Writes the interval [*lo, *hi] of states u for which the estimate x lies in the band
+/* One end of a tolerance band as a function of the estimate x near some x: u = slope·x +
+ * offset, or infinite (slope 0, offset ±inf). */
+typedef struct {
+    double slope, offset;
+} band_end;
+
+static double end_at(band_end e, double x)
+{
+    return e.slope == 0 ? e.offset : e.slope * x + e.offset;
+}
+
+/* Writes the ends of the interval of states u for which the estimate x lies in the band
  * -below <= e <= above: [x - above, x + below], or, relative, (1 - below)·u <= x <= (1 +
- * above)·u solved for u on each side by the sign of its factor. Empty when *lo > *hi. */
-static void band_states(const lop_curve *c, double x, double *lo, double *hi)
+ * above)·u solved for u on each side by the sign of its factor. Each end is affine in x
+ * between the breaks (x = 0 for relative bands). Empty when lo > hi. */
+static void band_ends(const lop_curve *c, double x, band_end *lo, band_end *hi)
 {
     if (!c->relative) {
-        *lo = x - c->above;
-        *hi = x + c->below;
+        *lo = (band_end){1, -c->above};
+        *hi = (band_end){1, c->below};
         return;
     }
     double low = 1 - c->below, high = 1 + c->above;
-    *lo = -INFINITY;
-    *hi = INFINITY;
+    *lo = (band_end){0, -INFINITY};
+    *hi = (band_end){0, INFINITY};
     if (low > 0)
-        *hi = x / low;
+        *hi = (band_end){1 / low, 0};
     else if (low < 0)
-        *lo = x / low;
+        *lo = (band_end){1 / low, 0};
     else if (x < 0)
-        *lo = INFINITY;
-    if (high > 0)
-        *lo = fmax(*lo, x / high);
-    else if (high < 0)
-        *hi = fmin(*hi, x / high);
-    else if (x > 0)
-        *lo = INFINITY;
-}
-
-/* Returns the cumulative posterior of the cells at t: piecewise linear through the
- * edges (pre[0][i] is the mass of the cells below edge i). */
-static double cells_cumulative(const lop_curve_work *w, double t)
-{
-    size_t n = w->n_states;
-    if (t <= w->edge[0])
-        return 0;
-    if (t >= w->edge[n])
-        return w->pre[0][n];
-    size_t k = cell_of(w, t);
-    double lo = w->edge[k];
-    return w->pre[0][k] + w->p[k] * ((t - lo) / (w->edge[k + 1] - lo));
+        *lo = (band_end){0, INFINITY};
+    if (high > 0) {
+        if (end_at(*lo, x) < x / high)
+            *lo = (band_end){1 / high, 0};
+    } else if (high < 0) {
+        if (end_at(*hi, x) > x / high)
+            *hi = (band_end){1 / high, 0};
+    } else if (x > 0) {
+        *lo = (band_end){0, INFINITY};
+    }
 }
 
 double cells_window(const lop_curve_work *w, double x)
 {
-    double lo, hi;
-    band_states(&w->c, x, &lo, &hi);
-    if (!(hi > lo))
+    band_end lo, hi;
+    band_ends(&w->c, x, &lo, &hi);
+    double a = end_at(lo, x), b = end_at(hi, x);
+    if (!(b > a))
         return 0;
-    return cells_cumulative(w, hi) - cells_cumulative(w, lo);
+    return cumulative(w, b) - cumulative(w, a);
 }
 
-/* Returns the integral of (x - u)/u over u in [a, b] (0 < a <= b): x·log(b/a) - (b - a). */
-static double relative_error_integral(double x, double a, double b)
-{
-    return x * log1p((b - a) / a) - (b - a);
-}
-
-double cells_loss(const lop_curve_work *w, double x, size_t i)
+/* Returns the integral of loss(x, u) over piece k against the piece a: over·(x - u)
+ * below x and under·(u - x) above it for linlin and absolute, inside or outside for
+ * tolerance. */
+static double piece_loss(const lop_curve_work *w, double x, size_t k, const double a[3])
 {
     const lop_curve *c = &w->c;
-    double lo = w->edge[i], hi = w->edge[i + 1], width = hi - lo;
+    double lo = w->s[k], h = w->s[k + 1] - lo, whole = lop_density_mass(a, 1);
     if (c->kind == LOP_CURVE_TOLERANCE) {
-        double a, b;
-        band_states(c, x, &a, &b);
-        double in = fmax(0, fmin(b, hi) - fmax(a, lo)) / width;
-        return c->inside * in + c->outside * (1 - in);
+        band_end e_lo, e_hi;
+        band_ends(c, x, &e_lo, &e_hi);
+        double ta = fmax((end_at(e_lo, x) - lo) / h, 0), tb = fmin((end_at(e_hi, x) - lo) / h, 1);
+        double in = tb > ta ? lop_density_mass(a, tb) - lop_density_mass(a, ta) : 0;
+        return h * (c->inside * in + c->outside * (whole - in));
     }
     double under = c->kind == LOP_CURVE_ABSOLUTE ? c->scale : c->under;
     double over = c->kind == LOP_CURVE_ABSOLUTE ? c->scale : c->over;
-    double mid = fmin(fmax(x, lo), hi);         /* the cell splits at x */
-    if (!c->relative)                           /* the integral of |x - u| on each side */
-        return (over * (mid - lo) * (x - 0.5 * (lo + mid)) +
-                under * (hi - mid) * (0.5 * (mid + hi) - x)) / width;
-    double under_part = mid < hi ? -relative_error_integral(x, mid, hi) : 0;
-    double over_part = mid > lo ? relative_error_integral(x, lo, mid) : 0;
-    return (over * over_part + under * under_part) / width;
+    double t = fmin(fmax((x - lo) / h, 0), 1), y = x - lo;   /* the piece splits at x */
+    double m0 = lop_density_mass(a, t), m1 = lop_density_moment(a, t);
+    double below_part = y * m0 - h * m1;
+    double above_part = h * (lop_density_moment(a, 1) - m1) - y * (whole - m0);
+    return h * (over * below_part + under * above_part);
+}
+
+double cells_direct(const lop_curve_work *w, const double *p, double x)
+{
+    size_t n = w->n_states;
+    const double *factor = weight_factor(w);
+    double sum = 0, a[3];
+    lop_density_sweep sweep;
+    lop_density_sweep_start(&sweep, w->s, p, factor, NULL, n, 0);
+    for (size_t k = 0; k + 1 < n; k++) {
+        lop_density_sweep_piece(&sweep, k, a);
+        if (lop_density_mass(a, 1) != 0)        /* no loss from where there is no mass */
+            sum += piece_loss(w, x, k, a);
+    }
+    return sum;
 }
 
 /* Writes the breaks of the window's mass in increasing order to w->cand and returns how
- * many: the estimates at which a band edge meets a cell edge (or, over points, a state),
- * v·factor + offset for the edges v of each side of the band, and 0 for a relative band
- * whose side turns around there. */
-static size_t breaks(lop_curve_work *w)
+ * many: the estimates at which a band edge meets one of the states v[0..n-1] (the nodes
+ * of the density, or, over points, the states), v·factor + offset for each side of the
+ * band, and 0 for a relative band whose side turns around there. */
+static size_t breaks(lop_curve_work *w, const double *v, size_t n)
 {
     const lop_curve *c = &w->c;
-    const double *v = w->cells ? w->edge : w->s;
-    size_t n = w->cells ? w->n_states + 1 : w->n_states;
     double factor[2] = {1, 1}, offset[2] = {c->above, -c->below};
     if (c->relative) {
         factor[0] = 1 + c->above;
@@ -241,41 +293,185 @@ static size_t breaks(lop_curve_work *w)
     return m;
 }
 
-/* Returns the mass of the band at x: over the cells, or the states in it. */
-static double window(const lop_curve_work *w, double x)
+/* Bisection for the edge of a tie level set stops after this many halvings (far below
+ * rounding for any interval between two breaks). */
+#define EDGE_STEPS 200
+
+/* Returns the expected tolerance loss at x over the density or over points. */
+static double tolerance_at(const lop_curve_work *w, double x)
 {
-    return w->cells ? cells_window(w, x) : curve_points_window(w, x);
+    return curve_tolerance_el(w, w->cells ? cells_window(w, x) : curve_points_window(w, x));
+}
+
+/* Returns where the expected loss crosses `level` between out (above it) and in (at or
+ * below it), by bisection: over cells the loss is continuous, so a crossing lies between. */
+static double level_edge(const lop_curve_work *w, double out, double in, double level)
+{
+    for (int it = 0; it < EDGE_STEPS; it++) {
+        double mid = 0.5 * (out + in);
+        if (mid == out || mid == in)
+            break;
+        if (tolerance_at(w, mid) > level)
+            out = mid;
+        else
+            in = mid;
+    }
+    return in;
+}
+
+/* Returns the best of the m candidate estimates x[] (increasing) with expected losses v[]
+ * and writes its loss to *el. Estimates whose losses lie within the tie of the least count
+ * as equally good, and the first run of such candidates is taken: over points (a step
+ * function) the middle of that run when the middle ties too; over cells the middle of the
+ * interval where the loss stays within the tie, its edges found by bisection, when that
+ * middle ties too. Near a strict minimum that is the minimum itself to within rounding;
+ * where the window holds all the mass over an interval of estimates (up to a tail far
+ * below the tie) it is the interval's middle, which moves smoothly with the grid, as
+ * the tail does, where the last candidate of a run would move by whole steps. */
+static double best_candidate(const lop_curve_work *w, const double *x, const double *v,
+                             size_t m, double *el)
+{
+    double scale = fmax(fabs(w->c.inside), fabs(w->c.outside)) * w->mass;
+    double tie = CURVE_TIE_RELATIVE * (scale > 0 ? scale : 1);
+    double least = INFINITY;
+    for (size_t k = 0; k < m; k++)
+        least = fmin(least, v[k]);
+    size_t first = 0;
+    while (v[first] - least > tie)
+        first++;
+    size_t end = first + 1, arg = first;
+    while (end < m && v[end] - least <= tie) {
+        if (v[end] < v[arg])
+            arg = end;
+        end++;
+    }
+    double lo = x[first], hi = x[end - 1];
+    if (w->cells) {
+        if (first > 0)
+            lo = level_edge(w, x[first - 1], x[first], least + tie);
+        if (end < m)
+            hi = level_edge(w, x[end], x[end - 1], least + tie);
+    }
+    if (hi > lo) {
+        double mid = 0.5 * (lo + hi), at_mid = tolerance_at(w, mid);
+        if (at_mid - least <= tie) {
+            *el = at_mid;
+            return mid;
+        }
+    }
+    *el = v[arg];
+    return x[arg];
+}
+
+/* Appends to (x, v) the stationary points of the window's mass strictly inside the piece
+ * (a, b) between consecutive breaks, then writes the loss at a to *v_a. The band's ends
+ * are affine in x and each lies in one piece of the density there, so the mass's slope is
+ * a quadratic in x: sampled at a, the middle and b (one-sided at the ends) and solved by
+ * the stable quadratic formula q = -(B + sign(B)·sqrt(B² - 4AC))/2, roots q/A and C/q
+ * (Press et al., Numerical Recipes, sec. 5.6, from memory). */
+static size_t piece_stationary(lop_curve_work *w, double a, double b, size_t *hint_lo,
+                               size_t *hint_hi, double *x, double *v, double *v_a)
+{
+    double mid = 0.5 * (a + b);
+    band_end lo, hi;
+    band_ends(&w->c, mid, &lo, &hi);
+    bool open = end_at(hi, mid) > end_at(lo, mid);
+    size_t k_lo = locate(w, end_at(lo, mid), hint_lo), k_hi = locate(w, end_at(hi, mid), hint_hi);
+    double in_a = open ? cumulative_in(w, k_hi, end_at(hi, a)) -
+                             cumulative_in(w, k_lo, end_at(lo, a))
+                       : 0;
+    *v_a = curve_tolerance_el(w, in_a);
+    if (!open || w->c.inside == w->c.outside)
+        return 0;
+    double g[3], at[3] = {a, mid, b};
+    for (int j = 0; j < 3; j++)
+        g[j] = hi.slope * density_in(w, k_hi, end_at(hi, at[j])) -
+               lo.slope * density_in(w, k_lo, end_at(lo, at[j]));
+    /* g(tau) = A·tau² + B·tau + C on tau in [0, 1] through the three samples */
+    double A = 2 * g[0] - 4 * g[1] + 2 * g[2], B = -3 * g[0] + 4 * g[1] - g[2], C = g[0];
+    double roots[2];
+    size_t r = 0;
+    if (A == 0) {
+        if (B != 0)
+            roots[r++] = -C / B;
+    } else {
+        double disc = B * B - 4 * A * C;
+        if (disc >= 0) {
+            double q = -0.5 * (B + copysign(sqrt(disc), B));
+            roots[r++] = q / A;
+            if (q != 0)
+                roots[r++] = C / q;
+        }
+    }
+    if (r == 2 && roots[1] < roots[0]) {
+        double t = roots[0];
+        roots[0] = roots[1];
+        roots[1] = t;
+    }
+    size_t found = 0;
+    for (size_t j = 0; j < r; j++) {
+        if (!(roots[j] > 0 && roots[j] < 1))
+            continue;
+        double xr = a + roots[j] * (b - a);
+        x[found] = xr;
+        v[found] = curve_tolerance_el(w, cumulative_in(w, k_hi, end_at(hi, xr)) -
+                                             cumulative_in(w, k_lo, end_at(lo, xr)));
+        found++;
+    }
+    return found;
+}
+
+/* Over cells: the window's mass is a cubic in x between breaks, so its extremes are at
+ * the breaks or at the roots of its quadratic slope. When a larger window is better
+ * (inside < outside) only the breaks of the states from the one before the first with
+ * mass to the one after the last count: the window is empty of mass elsewhere. */
+static double cells_tolerance_bayes(lop_curve_work *w, double *el)
+{
+    size_t n = w->n_states, first = 0, last = n - 1;
+    if (w->c.inside < w->c.outside) {
+        while (first < n && w->p[first] == 0)
+            first++;
+        while (last > first && w->p[last] == 0)
+            last--;
+        if (first == n) {
+            first = 0;
+            last = n - 1;
+        }
+        first = first > 0 ? first - 1 : 0;
+        last = last + 1 < n ? last + 1 : n - 1;
+    }
+    size_t m = breaks(w, w->s + first, last - first + 1);
+    double *x = w->cand + m, *v = w->cand_el;
+    size_t count = 0, hint_lo = OUTSIDE, hint_hi = OUTSIDE;
+    for (size_t k = 0; k < m; k++) {
+        double a = w->cand[k];
+        double b = k + 1 < m ? w->cand[k + 1] : a;
+        double v_a;
+        size_t found = 0;
+        if (b > a) {
+            found = piece_stationary(w, a, b, &hint_lo, &hint_hi, x + count + 1,
+                                     v + count + 1, &v_a);
+        } else {
+            v_a = curve_tolerance_el(w, cells_window(w, a));
+        }
+        x[count] = a;
+        v[count] = v_a;
+        count += 1 + found;
+    }
+    return best_candidate(w, x, v, count, el);
+}
+
+/* Over points: the window's mass is a step function, so its best value is at a break. */
+static double points_tolerance_bayes(lop_curve_work *w, double *el)
+{
+    size_t m = breaks(w, w->s, w->n_states);
+    double *x = w->cand, *v = w->cand_el;
+    for (size_t k = 0; k < m; k++)
+        v[k] = curve_tolerance_el(w, curve_points_window(w, x[k]));
+    return best_candidate(w, x, v, m, el);
 }
 
 double curve_tolerance_bayes(lop_curve_work *w, double *el)
 {
-    size_t m = breaks(w);
-    double scale = fmax(fabs(w->c.inside), fabs(w->c.outside)) * w->mass;
-    double tie = CURVE_TIE_RELATIVE * (scale > 0 ? scale : 1);
-    double least = INFINITY;
-    size_t first = 0;
-    for (size_t k = 0; k < m; k++) {
-        double v = curve_tolerance_el(w, window(w, w->cand[k]));
-        if (v < least - tie) {
-            least = v;
-            first = k;
-        }
-    }
-    /* The run of breaks tied with the best: the expected loss is linear between breaks
-     * over cells (constant between them over points), so the run is one plateau when its
-     * middle ties too. */
-    size_t end = first + 1;
-    while (end < m && curve_tolerance_el(w, window(w, w->cand[end])) - least <= tie)
-        end++;
-    double x = w->cand[first];
-    if (end - 1 > first) {
-        double mid = 0.5 * (w->cand[first] + w->cand[end - 1]);
-        double at_mid = curve_tolerance_el(w, window(w, mid));
-        if (at_mid - least <= tie) {
-            x = mid;
-            least = fmin(least, at_mid);
-        }
-    }
-    *el = curve_tolerance_el(w, window(w, x));
-    return x;
+    return w->cells ? cells_tolerance_bayes(w, el) : points_tolerance_bayes(w, el);
 }

@@ -34,8 +34,10 @@ struct lop_curve_work {
 
     bool cells;                     /* LOP_CURVE_CELLS, and at least two states */
     bool continuous;                /* LOP_CURVE_CONTINUOUS */
-    double *edge;                   /* cells: n_states + 1 edges; cell i is [edge i, i+1] */
-    double *cand;                   /* continuous tolerance: 2·(n_states + 1) + 1 breaks */
+    double *node;                   /* cells: the density's n_states node values */
+    double *poly;                   /* cells: 3 coefficients per piece (density.h) */
+    double *cand;                   /* continuous tolerance: the breaks, then candidates */
+    double *cand_el;                /* continuous tolerance: the candidates' losses */
     double range_lo, range_hi;      /* where a convex curve's minimizer is looked for */
 
     /* Sums of the posterior of the current call. */
@@ -57,28 +59,31 @@ double curve_tolerance_el(const lop_curve_work *w, double in);
  * cumulative posterior), by the tests of lop_curve_loss. */
 double curve_points_window(const lop_curve_work *w, double x);
 
-/* Linlin and absolute over cells: sets pre[0] = the weight p·c and pre[1] = p·c·(s - m1)
- * integrated up to each edge (c = 1, or 1/s for relative curves), once w->center is set. */
-void cells_linlin_prepare(lop_curve_work *w);
+/* Over cells (absolute, linlin, tolerance), once w->p and w->center are set: writes the
+ * density's pieces of the weight (p, or p/s for relative absolute and linlin) to w->poly,
+ * pre[0][k] = the weight below state k and, with moments, pre[1][k] = the moment about
+ * m1 below it. */
+void cells_prepare(lop_curve_work *w, bool moments);
 
-/* Returns the expected linlin loss of estimate x over the cells. */
+/* Returns the expected linlin loss of estimate x over the density. */
 double cells_linlin_at(const lop_curve_work *w, double x, double under, double over);
 
-/* Returns the minimizer of the cells' linlin loss: the quantile under/(under + over) of
- * the weight; the middle of the interval of minimizers when it is flat. */
+/* Returns the minimizer of the density's linlin loss: the quantile under/(under + over)
+ * of the weight; the middle of the interval of minimizers when it is flat. */
 double cells_linlin_bayes(const lop_curve_work *w, double under, double over);
 
-/* Returns the posterior mass of the tolerance band at x over the cells (pre[0] the
- * cumulative posterior at the edges). */
+/* Returns the posterior mass of the tolerance band at x over the density (after
+ * cells_prepare). */
 double cells_window(const lop_curve_work *w, double x);
 
-/* Returns the average over cell i of the loss of estimate x (curves by cells only). */
-double cells_loss(const lop_curve_work *w, double x, size_t i);
+/* Returns the expected loss of estimate x under p over the density (curves by cells
+ * only), piece by piece from p alone: the direct reference for the paths above. */
+double cells_direct(const lop_curve_work *w, const double *p, double x);
 
 /* Returns the best estimate of a tolerance curve over all reals and writes its expected
- * loss to *el: the expected loss is piecewise linear over cells (a step function over
- * points), so its least value is at a break, where a band edge meets a cell edge (or a
- * state). pre[0] must hold the cumulative posterior. */
+ * loss to *el. Over cells the window's mass is a cubic between breaks (where a band end
+ * meets a state), so its best value is at a break or a root of its quadratic slope; over
+ * points it is a step function, best at a break. pre[0] must hold the cumulative. */
 double curve_tolerance_bayes(lop_curve_work *w, double *el);
 
 #endif

@@ -1,5 +1,6 @@
 #include <math.h>
 
+#include "lopside/density.h"
 #include "lopside/posterior.h"
 
 double lop_posterior_normalize(const double *logw, size_t n, double *p)
@@ -39,26 +40,32 @@ static void cell(const lop_problem *pr, size_t i, double *lo, double *hi)
     *hi = i + 1 == n ? x[n - 1] : 0.5 * (x[i] + x[i + 1]);
 }
 
-/* Returns the quantile at probability q of the distribution p over the states of a
- * problem: on a grid each cell's mass is spread evenly over the cell (so the CDF is
- * piecewise linear); over listed values, the smallest value whose CDF reaches q. */
-static double quantile(const lop_problem *pr, const double *p, double q)
+/* Returns the quantile at probability q of the distribution p over listed values: the
+ * smallest value whose CDF reaches q. */
+static double listed_quantile(const lop_problem *pr, const double *p, double q)
 {
     size_t n = pr->n_states;
-    const double *x = pr->state_values;
     double cum = 0;
     for (size_t i = 0; i < n; i++) {
-        double next = cum + p[i];
-        if (next >= q && p[i] > 0) {
-            if (pr->states_kind != LOP_STATES_GRID)
-                return x[i];
-            double lo, hi, t = (q - cum) / p[i];
-            cell(pr, i, &lo, &hi);
-            return lo + (t < 0 ? 0 : t > 1 ? 1 : t) * (hi - lo);
-        }
-        cum = next;
+        cum += p[i];
+        if (cum >= q && p[i] > 0)
+            return pr->state_values[i];
     }
-    return x[n - 1];
+    return pr->state_values[n - 1];
+}
+
+/* Writes the 5%, 50% and 95% quantiles of p: on a grid those of its continuous density
+ * (density.h: the cumulative is a cubic in each interval, inverted exactly), over listed
+ * values the smallest value whose CDF reaches each. */
+static void quantiles(const lop_problem *pr, const double *p, double out[3])
+{
+    static const double q[3] = {0.05, 0.5, 0.95};
+    if (pr->states_kind == LOP_STATES_GRID && pr->n_states >= 2) {
+        lop_density_quantiles(pr->state_values, p, pr->n_states, q, 3, out);
+        return;
+    }
+    for (int j = 0; j < 3; j++)
+        out[j] = listed_quantile(pr, p, q[j]);
 }
 
 /* Returns the mode on a grid: the vertex of the parabola through the log masses of the
@@ -106,7 +113,9 @@ void lop_posterior_summarize(const lop_problem *pr, const double *p, lop_summary
     out->mean = m1;
     out->sd = sqrt(var);
     out->mode = pr->states_kind == LOP_STATES_GRID ? grid_mode(pr, p, mode) : pr->state_values[mode];
-    out->median = quantile(pr, p, 0.5);
-    out->q05 = quantile(pr, p, 0.05);
-    out->q95 = quantile(pr, p, 0.95);
+    double q[3];
+    quantiles(pr, p, q);
+    out->q05 = q[0];
+    out->median = q[1];
+    out->q95 = q[2];
 }

@@ -39,7 +39,8 @@ typedef enum {
     LOP_CURVE_BY_MOMENTS,     /* squared, linex: closed forms in posterior moments, O(S + E) */
     LOP_CURVE_BY_PREFIX_SUMS, /* absolute, linlin, quadquad: O(S + E) */
     LOP_CURVE_BY_WINDOW,      /* tolerance: O(S + E); over cells, or relative with
-                                 below >= 1: O(E log S) */
+                                 below >= 1: O(E log S); the best real estimate over
+                                 cells O(S) (O(S log S) for relative with below >= 1) */
     LOP_CURVE_BY_PIECES,      /* points: prefix sums per piece, O((S + E) P); relative
                                  estimates <= 0 by the direct sum, O(S) each */
     LOP_CURVE_BY_FFT,         /* points on one uniform lattice when cheaper: O(N log N) */
@@ -47,12 +48,14 @@ typedef enum {
 } lop_curve_method;
 
 /* Options of lop_curve_work_new, or-ed together.
- * LOP_CURVE_CELLS: the states are the points of a grid and each holds the mass of its cell,
- * spread evenly between the midpoints to its neighbours (the first and last cells end at
- * the first and last state). Absolute, linlin and tolerance curves then integrate over the
- * cells: a band edge or a quantile inside a cell splits it. Squared, quadquad, LINEX and
- * points curves keep the sum over points, the midpoint rule of the same integral: their
- * losses are continuous, so it is already second-order, and spreading the mass would
+ * LOP_CURVE_CELLS: the states are the points of a grid and each holds the mass of its cell
+ * (between the midpoints to its neighbours; the first and last cells end at the first and
+ * last state). Absolute, linlin and tolerance curves then integrate over the continuous
+ * density of those masses (density.h: a quadratic between neighbouring states with the
+ * interval's mass, the cumulative a cubic): a band end or a quantile inside an interval
+ * splits it exactly. Squared, quadquad, LINEX and points curves keep the sum over points,
+ * the midpoint rule of the same integral: the first three losses are smooth enough for it to
+ * be second-order with no oscillating term of that order, and spreading the mass would
  * only add the cells' own variance (Sheppard's correction, h²/12).
  * LOP_CURVE_CONTINUOUS: the estimate is any real number; the estimates are then only the
  * grid the expected loss is shown on. Without it the estimates are the actions. */
@@ -96,9 +99,10 @@ double lop_curve_expected_at(const lop_curve_work *w, const double *p, double x)
  * NULL). With LOP_CURVE_CONTINUOUS the best real number: squared the posterior mean
  * (relative: E[1/X]/E[1/X²]), absolute and linlin the quantile under/(under + over)
  * (relative: of the weights p/s), quadquad and relative LINEX the root of the convex
- * derivative, LINEX -(1/a)·log E[exp(-a·X)], tolerance the best break of the window's
- * piecewise-linear mass, points Brent's method around the best estimate of the grid; on
- * a plateau of equal expected losses, its middle. Without it the best point of the
+ * derivative, LINEX -(1/a)·log E[exp(-a·X)], tolerance the exact maximum of the window's
+ * mass (over cells a cubic between breaks; over points a step function), points Brent's
+ * method around the best estimate of the grid; on a plateau of equal expected losses, its
+ * middle. Without it the best point of the
  * estimate grid (the actions): for convex curves the grid point next to the minimizer
  * that does better; for tolerance and points the best grid point (on a plateau its
  * middle point; of two plateaus, the first). */

@@ -14,7 +14,8 @@ double lop_posterior_normalize(const double *logw, size_t n, double *p);
 /* The same, but weights below e^cut of the largest become exactly 0 without an exp. */
 double lop_posterior_normalize_above(const double *logw, size_t n, double cut, double *p);
 
-/* Writes the mean, sd, median, mode and 5% and 95% quantiles of p (numeric states). */
+/* Writes the mean, sd, median, mode and 5% and 95% quantiles of p (numeric states); on a
+ * grid the quantiles are those of its continuous density (density.h). */
 void lop_posterior_summarize(const lop_problem *pr, const double *p, lop_summary *out);
 
 #endif

@@ -5,6 +5,7 @@
 #include <gsl/gsl_rng.h>
 
 #include "lopside/curve.h"
+#include "lopside/density.h"
 #include "testutil.h"
 
 /* ---- helpers ---------------------------------------------------------------------- */
@@ -763,76 +764,88 @@ START_TEST(continuous_estimates_over_values_take_the_closed_forms)
 }
 END_TEST
 
-/* Returns the integral of |x - u| over u in [a, b]: by hand, split at x. */
-static double abs_integral(double x, double a, double b)
+/* The hand example of the density over cells (density.h), worked by hand: grid 0..4,
+ * masses 0, 1/4, 1/2, 1/4, 0, cells' averages v = 0, 1/4, 1/2, 1/4, 0. The right parts
+ * of the cells, m/2 + (1/8)·(v_{j+1} - v_{j-1})/2, are 0, 5/32, 1/4, 3/32, 0, so the
+ * intervals hold 3/32, 13/32, 13/32, 3/32. The values at the states, v - (1/24)·(second
+ * difference) with the ends extrapolated ((4·v_0 - v_1)/3 = -1/12, kept at 0), are 0,
+ * 1/4, 25/48, 1/4, 0, none above three times a mean beside it. Each piece is the line
+ * through its end values plus 6·beta·t(1-t), beta = mean - (sum of the end values)/2:
+ * piece 0: t/16 + 3t²/16; piece 1: 1/4 + 19t/48 - t²/8; piece 2: 25/48 - 7t/48 - t²/8;
+ * piece 3: (4 - 7t + 3t²)/16. */
+static double hand_mass(int k, double t)   /* mass of piece k over [0, t] */
 {
-    if (x <= a)
-        return (b - a) * (0.5 * (a + b) - x);
-    if (x >= b)
-        return (b - a) * (x - 0.5 * (a + b));
-    return 0.5 * ((x - a) * (x - a) + (b - x) * (b - x));
+    switch (k) {
+    case 0:
+        return t * t / 32 + t * t * t / 16;
+    case 1:
+        return t / 4 + 19 * t * t / 96 - t * t * t / 24;
+    case 2:
+        return 25 * t / 48 - 7 * t * t / 96 - t * t * t / 24;
+    default:
+        return (4 * t - 3.5 * t * t + t * t * t) / 16;
+    }
 }
 
-/* The same posterior on the grid 0, 1, 2, 3: the cells are [0, .5], [.5, 1.5], [1.5, 2.5],
- * [2.5, 3], and the cumulative posterior is linear in each. The median (Berger 1985, sec.
- * 4.4.2, from memory) is in the third cell: 1.5 + (0.5 - 0.3)/0.3 = 13/6; the linlin
- * quantile 1/(1 + 3) = 0.25 in the second: 0.5 + (0.25 - 0.1)/0.2 = 1.25. */
-START_TEST(continuous_estimates_over_cells_interpolate_the_quantile)
+/* Returns the hand example's cumulative at u in [0, 4]. */
+static double hand_cumulative(double u)
 {
-    const double s[] = {0, 1, 2, 3}, p[] = {0.1, 0.2, 0.3, 0.4};
-    const double edge[] = {0, 0.5, 1.5, 2.5, 3};
+    double below = 0;
+    int k = 0;
+    while (k < 3 && u >= k + 1)
+        below += hand_mass(k++, 1);
+    return below + hand_mass(k, u - k);
+}
+
+/* The absolute-loss estimate is the median (Berger 1985, sec. 4.4.2, from memory), 2 by
+ * symmetry, and its expected loss 2·∫_0^2 (2 - u) f(u) du = 2·(23/192 + 13/72) = 173/288
+ * by hand; the linlin estimate (under 1, over 3) is the quantile 1/4, found here by
+ * bisection on hand_cumulative; the median, 5% and 95% quantiles of the same masses by
+ * lop_density_quantiles agree with bisection too. */
+START_TEST(estimates_over_cells_follow_the_density)
+{
+    const double s[] = {0, 1, 2, 3, 4}, p[] = {0, 0.25, 0.5, 0.25, 0};
     double el;
     lop_curve ab = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
-    double x = continuous_bayes(&ab, s, p, 4, LOP_CURVE_CELLS, &el);
-    ck_assert_close(x, 13.0 / 6, 1e-12);
-    double want = 0;
-    for (int i = 0; i < 4; i++)
-        want += p[i] / (edge[i + 1] - edge[i]) * abs_integral(x, edge[i], edge[i + 1]);
-    ck_assert_close(el, want, 1e-12);
-    lop_curve ll = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
-    ck_assert_close(continuous_bayes(&ll, s, p, 4, LOP_CURVE_CELLS, &el), 1.25, 1e-12);
-
-    /* Relative linlin on the grid 1..4 (cells [1, 1.5], .., [3.5, 4]): the minimizer is the
-     * quantile 0.25 of the weight with density p_i/(w_i·u) on cell i, whose integral over
-     * the cell is p_i/w_i·log(hi/lo), and inside a cell u = lo·(hi/lo)^t. */
-    const double r[] = {1, 2, 3, 4}, re[] = {1, 1.5, 2.5, 3.5, 4};
-    lop_curve rl = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3, .relative = true};
-    double weight[4], total = 0;
-    for (int i = 0; i < 4; i++) {
-        weight[i] = p[i] / (re[i + 1] - re[i]) * log(re[i + 1] / re[i]);
-        total += weight[i];
+    ck_assert_close(continuous_bayes(&ab, s, p, 5, LOP_CURVE_CELLS, &el), 2.0, 1e-12);
+    ck_assert_close(el, 173.0 / 288, 1e-12);
+    const double q[] = {0.05, 0.25, 0.5, 0.95};
+    double want[4], got[4];
+    for (int j = 0; j < 4; j++) {
+        double lo = 0, hi = 4;
+        for (int it = 0; it < 200; it++) {
+            double mid = 0.5 * (lo + hi);
+            if (hand_cumulative(mid) < q[j])
+                lo = mid;
+            else
+                hi = mid;
+        }
+        want[j] = 0.5 * (lo + hi);
     }
-    double goal = 0.25 * total, below = 0;
-    int k = 0;
-    while (below + weight[k] < goal)
-        below += weight[k++];
-    double t = (goal - below) / weight[k];
-    ck_assert_close(continuous_bayes(&rl, r, p, 4, LOP_CURVE_CELLS, &el),
-                    re[k] * pow(re[k + 1] / re[k], t), 1e-12);
+    lop_density_quantiles(s, p, 5, q, 4, got);
+    for (int j = 0; j < 4; j++)
+        ck_assert_close(got[j], want[j], 1e-12);
+    lop_curve ll = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
+    ck_assert_close(continuous_bayes(&ll, s, p, 5, LOP_CURVE_CELLS, &el), want[1], 1e-12);
 }
 END_TEST
 
-/* A band edge inside a cell counts the part of the cell it covers. Grid 0, 0.1, .., 2
- * (cells of 0.1, halves at the ends), p_i ∝ i + 1; the band ±0.25 around 1.02 is
- * [0.77, 1.27]: 0.8 of cell 8 [0.75, 0.85], cells 9..12 whole, 0.2 of cell 13. */
+/* A band edge inside an interval counts the part of the density it covers: in the hand
+ * example the band ±0.25 around 1.9 is [1.65, 2.15], whose mass is hand_cumulative(2.15) -
+ * hand_cumulative(1.65), by the fast path and the direct integral alike. */
 START_TEST(tolerance_windows_count_partial_cells)
 {
-    double s[21], p[21];
-    for (int i = 0; i < 21; i++) {
-        s[i] = 0.1 * i;
-        p[i] = i + 1;
-    }
-    normalize(p, 21);
+    const double s[] = {0, 1, 2, 3, 4}, p[] = {0, 0.25, 0.5, 0.25, 0};
     lop_curve c = {.kind = LOP_CURVE_TOLERANCE, .below = 0.25, .above = 0.25, .inside = 0,
                    .outside = 1};
-    const double x[] = {1.02};
-    lop_curve_work *w = lop_curve_work_new(&c, s, 21, x, 1, LOP_CURVE_CELLS);
+    const double x[] = {1.9};
+    lop_curve_work *w = lop_curve_work_new(&c, s, 5, x, 1, LOP_CURVE_CELLS);
     ck_assert_ptr_nonnull(w);
     double el, direct;
     lop_curve_expected(w, p, &el);
     lop_curve_expected_direct(w, p, &direct);
-    double in = 0.8 * p[8] + p[9] + p[10] + p[11] + p[12] + 0.2 * p[13];
-    ck_assert_close(el, 1 - in, 1e-12);     /* sums of 21 terms: rounding only */
+    double in = hand_cumulative(2.15) - hand_cumulative(1.65);
+    ck_assert_close(el, 1 - in, 1e-12);     /* sums of a few terms: rounding only */
     ck_assert_close(direct, 1 - in, 1e-12);
     lop_curve_work_free(w);
 
@@ -852,6 +865,130 @@ START_TEST(tolerance_windows_count_partial_cells)
     lop_curve_expected(w, q, &el);
     ck_assert_close(el, 0.5, 1e-12);
     lop_curve_work_free(w);
+}
+END_TEST
+
+/* Over cells, the fast paths (prefix sums, exact windows) and the direct integral piece by
+ * piece agree on ragged grids and awkward posteriors (two bumps, a third of the states
+ * empty, one state with all the mass), for absolute, linlin and tolerance curves, plain
+ * and relative; and each continuous Bayes estimate's loss is the direct one at it. */
+START_TEST(cells_fast_paths_agree_with_the_direct_integral)
+{
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, 7);
+    lop_curve curves[] = {
+        {.kind = LOP_CURVE_ABSOLUTE, .scale = 2},
+        {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3},
+        {.kind = LOP_CURVE_LINLIN, .under = 2, .over = 0.5, .relative = true},
+        {.kind = LOP_CURVE_TOLERANCE, .below = 0.7, .above = 1.3, .inside = 0, .outside = 1},
+        {.kind = LOP_CURVE_TOLERANCE, .below = 0.1, .above = 0.2, .inside = -1, .outside = 0.5,
+         .relative = true},
+        {.kind = LOP_CURVE_TOLERANCE, .below = 1.5, .above = 0.2, .inside = 0, .outside = 1,
+         .relative = true},
+    };
+    size_t n = 60, m = 45;
+    double p[60], el[45], direct[45];
+    for (size_t k = 0; k < sizeof curves / sizeof *curves; k++) {
+        for (int kind = 0; kind < 3; kind++) {
+            double *s = ragged_grid(r, 1, 0.2, n), *x = uniform_grid(-1, 16, m);
+            random_posterior(r, kind, s, n, p);
+            lop_curve_work *w = lop_curve_work_new(&curves[k], s, n, x, m, LOP_CURVE_CELLS);
+            ck_assert_ptr_nonnull(w);
+            lop_curve_expected(w, p, el);
+            lop_curve_expected_direct(w, p, direct);
+            for (size_t j = 0; j < m; j++)  /* sums of O(n) terms of size <= 40: rounding */
+                ck_assert_msg(fabs(el[j] - direct[j]) <= 1e-11 * fmax(1, fabs(direct[j])),
+                              "curve %zu kind %d x %g: %.17g vs %.17g", k, kind, x[j], el[j],
+                              direct[j]);
+            lop_curve_work_free(w);
+            double best;
+            continuous_bayes(&curves[k], s, p, n, LOP_CURVE_CELLS, &best);
+            free(s);
+            free(x);
+        }
+    }
+    gsl_rng_free(r);
+}
+END_TEST
+
+/* Cell masses of a normal posterior N(mu, sigma²) over the grid of n points on [lo, hi]:
+ * exact normal CDF differences over the cells (GSL's gsl_cdf_gaussian_P). */
+static void normal_cells(double mu, double sigma, double lo, double hi, size_t n, double *s,
+                         double *p)
+{
+    double h = (hi - lo) / (double)(n - 1);
+    for (size_t i = 0; i < n; i++)
+        s[i] = lo + (double)i * h;
+    for (size_t i = 0; i < n; i++) {
+        double a = i == 0 ? lo : s[i] - 0.5 * h, b = i + 1 == n ? hi : s[i] + 0.5 * h;
+        p[i] = gsl_cdf_gaussian_P(b - mu, sigma) - gsl_cdf_gaussian_P(a - mu, sigma);
+    }
+    normalize(p, n);
+}
+
+/* The density over cells converges smoothly: for a normal posterior on grids of 201, 401
+ * and 801 points, each number's error falls at least threefold per halving of the step
+ * (Richardson's rule in accuracy.c assumes fourfold and takes a third of the difference
+ * as the error; a faster fall only makes that estimate cautious), or is already within
+ * rounding (n·2^-52 of its scale), and the extrapolation (4·q_{h/2} - q_h)/3 of 401 and
+ * 801 points is within 1e-7 of the closed form (of the state range for positions,
+ * absolute for the probability). Closed forms: quantiles mu + sigma·Phi^-1(q) (GSL's
+ * gsl_cdf_ugaussian_Pinv, as scipy's norm.ppf); the absolute estimate is the median and
+ * the linlin one (under 1, over 3) the quantile 1/4 (Berger 1985, sec. 4.4.2, from
+ * memory); for a symmetric unimodal posterior the window of half-width a holds most mass
+ * centred on the mean (its mass's slope f(x + a) - f(x - a) vanishes only there), so the
+ * tolerance estimate is mu and its window holds 2·Phi(a/sigma) - 1. The range
+ * [mu - 8 sigma, mu + 8.7 sigma] leaves out less than 1e-15 of the normal and is not
+ * symmetric about mu, so no error vanishes by symmetry of the grid. (With the cells'
+ * averages joined by lines, the tolerance estimate's error would not fall steadily: the
+ * densities at the band's ends would err by h²/2·t(1-t)·f'', t their places in their
+ * intervals.) */
+START_TEST(cells_converge_smoothly_to_the_normal_closed_forms)
+{
+    const double mu = 0.3, sigma = 0.25, lo = mu - 8 * sigma, hi = mu + 8.7 * sigma;
+    const double half = 0.2, range = hi - lo;
+    enum { N_LEVELS = 3, N_QTY = 7 };
+    const size_t sizes[N_LEVELS] = {201, 401, 801};
+    const char *names[N_QTY] = {"q05", "median", "q95", "absolute estimate", "linlin estimate",
+                                "tolerance estimate", "window probability"};
+    double want[N_QTY], got[N_LEVELS][N_QTY];
+    const double q[3] = {0.05, 0.5, 0.95};
+    for (int j = 0; j < 3; j++)
+        want[j] = mu + sigma * gsl_cdf_ugaussian_Pinv(q[j]);
+    want[3] = mu;
+    want[4] = mu + sigma * gsl_cdf_ugaussian_Pinv(0.25);
+    want[5] = mu;
+    want[6] = 2 * gsl_cdf_ugaussian_P(half / sigma) - 1;
+    static double s[801], p[801];
+    for (int level = 0; level < N_LEVELS; level++) {
+        size_t n = sizes[level];
+        normal_cells(mu, sigma, lo, hi, n, s, p);
+        lop_density_quantiles(s, p, n, q, 3, got[level]);
+        double el;
+        lop_curve ab = {.kind = LOP_CURVE_ABSOLUTE, .scale = 1};
+        got[level][3] = continuous_bayes(&ab, s, p, n, LOP_CURVE_CELLS, &el);
+        lop_curve ll = {.kind = LOP_CURVE_LINLIN, .under = 1, .over = 3};
+        got[level][4] = continuous_bayes(&ll, s, p, n, LOP_CURVE_CELLS, &el);
+        lop_curve tol = {.kind = LOP_CURVE_TOLERANCE, .below = half, .above = half,
+                         .inside = 0, .outside = 1};
+        got[level][5] = continuous_bayes(&tol, s, p, n, LOP_CURVE_CELLS, &el);
+        got[level][6] = 1 - el;
+    }
+    for (int k = 0; k < N_QTY; k++) {
+        double scale = k == 6 ? 1 : range;
+        for (int level = 1; level < N_LEVELS; level++) {
+            double before = fabs(got[level - 1][k] - want[k]);
+            double after = fabs(got[level][k] - want[k]);
+            double rounding = (double)sizes[level] * 0x1p-52 * scale;
+            ck_assert_msg(after <= before / 3 || after <= rounding,
+                          "%s at %zu points: error %.3g after %.3g at %zu", names[k],
+                          sizes[level], after, before, sizes[level - 1]);
+        }
+        double extrapolated = (4 * got[2][k] - got[1][k]) / 3;
+        ck_assert_msg(fabs(extrapolated - want[k]) <= 1e-7 * scale,
+                      "%s: extrapolated %.17g, closed form %.17g", names[k], extrapolated,
+                      want[k]);
+    }
 }
 END_TEST
 
@@ -912,7 +1049,9 @@ Suite *suite_curve(void)
     tcase_add_test(tc, lattices_are_recognized);
     tcase_add_test(tc, points_with_many_knots_take_the_fft_path);
     tcase_add_test(tc, continuous_estimates_over_values_take_the_closed_forms);
-    tcase_add_test(tc, continuous_estimates_over_cells_interpolate_the_quantile);
+    tcase_add_test(tc, estimates_over_cells_follow_the_density);
+    tcase_add_test(tc, cells_fast_paths_agree_with_the_direct_integral);
+    tcase_add_test(tc, cells_converge_smoothly_to_the_normal_closed_forms);
     tcase_add_test(tc, tolerance_windows_count_partial_cells);
     tcase_add_test(tc, tolerance_and_points_estimates_beat_a_fine_scan);
     suite_add_tcase(s, tc);

@@ -8,7 +8,8 @@ import math
 import sys
 
 import numpy as np
-from scipy.stats import norm, uniform
+from scipy import integrate, optimize
+from scipy.stats import norm
 
 sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
 import refkit  # noqa: E402  (the shared harness, beside this file)
@@ -55,61 +56,89 @@ def check_contamination(folder, tally):
     tally.close_rel(group, c["case"]["evpi"], min(4, 60 * q) - 4 * q, 1e-12, "EVPI")
 
 
-# Interval timing: uniform prior on 500..1000 ms over a 2 ms grid (cells of 2 ms, so
-# the edge states 500 and 1000 get half a cell), scalar noise sd = 0.15 s, observed 780.
-# linlin with under 0.01, over 0.03: the Bayes estimate is the posterior quantile
-# 0.01 / (0.01 + 0.03) = 0.25 (Raiffa & Schlaifer 1961; Berger 1985, sec. 2.4).
+def contract_tol(doc, scale):
+    """The contract's tolerance (design.md "Numerical rules"): accuracy × scale, with the
+    accuracy the problem asks (default 1e-6); where lopside reports that it did not reach
+    it (accuracy.reached > asked), 3 × what it reached, and a note says so."""
+    acc = doc.get("accuracy") or {}
+    asked = acc.get("asked", 1e-6)
+    reached = acc.get("reached")
+    if reached is not None and reached > asked:
+        print(f"note: {doc['input']['path']}: accuracy.reached {reached:.3g} > asked "
+              f"{asked:.3g}; checked within 3 × reached")
+        return 3 * reached * scale
+    return asked * scale
+
+
+def quad(f, lo, hi, points=None):
+    """scipy quad to 1e-12 relative (1e-15 absolute); its own error is far below 1e-6."""
+    return integrate.quad(f, lo, hi, points=points, epsabs=1e-15, epsrel=1e-12, limit=400)[0]
+
+
+# Interval timing: the continuous model (design.md): the state is uniform on 500..1000 ms
+# (the prior's own low and high, inside the 400..1200 range), scalar noise sd = 0.15 s,
+# observed 780, so the posterior density is ∝ N(780; s, 0.15 s) on [500, 1000] (scipy
+# quad). linlin with under 0.01, over 0.03: the Bayes estimate is the posterior quantile
+# 0.01 / (0.01 + 0.03) = 0.25 (Raiffa & Schlaifer 1961; Berger 1985, sec. 2.4, from
+# memory), found with brentq on the quad CDF; its expected loss by quad. Tolerances:
+# accuracy × the state range (800 ms) for positions, × the score scale (the prior-only
+# risk: the same loss at the prior's 0.25 quantile, 625 ms) for expected losses.
 def check_interval_timing(folder, tally):
     group = "interval_timing"
     it = load(folder, group)
-    s = np.arange(400, 1201, 2.0)
-    prior = uniform.cdf(s + 1, 500, 500) - uniform.cdf(s - 1, 500, 500)
-    post = prior * norm.pdf(780, s, 0.15 * s)
-    post /= post.sum()
-    tally.close_rel(group, it["case"]["posterior"]["mean"], float(post @ s), 1e-9,
-                    "posterior mean")
-    # The grid's continuous reading spreads each mass evenly over its cell [s - 1, s + 1]
-    # (the cells holding mass here lie inside 400..1200), so the CDF is linear in a cell
-    # and the linlin minimizer, the quantile 0.25, is interpolated in the cell it falls in.
-    cdf = np.cumsum(post)
-    i = int(np.searchsorted(cdf, 0.25))
-    q = s[i] - 1 + 2 * (0.25 - (cdf[i] - post[i])) / post[i]
-    tally.close_rel(group, it["case"]["bayes_estimate"], q, 1e-9,
-                    "Bayes estimate (quantile of the cells)")
-    # Its expected loss over the cells: a cell [a, b] wholly below e costs 0.03·(e - mid),
-    # wholly above 0.01·(mid - e), and the cell holding e, per unit mass,
-    # (0.03·(e - a)² + 0.01·(b - e)²) / (2·(b - a)).
-    e = it["case"]["bayes_estimate"]
-    a, b = s - 1, s + 1
-    inside = (0.03 * np.clip(e - a, 0, None) ** 2 + 0.01 * np.clip(b - e, 0, None) ** 2) / 4
-    per = np.where(b <= e, 0.03 * (e - s), np.where(a >= e, 0.01 * (s - e), inside))
-    tally.close_rel(group, it["case"]["expected_loss"], float(post @ per), 1e-9,
-                    "expected loss")
+    lo, hi, span = 500.0, 1000.0, 1200.0 - 400.0
+    like = lambda s: norm.pdf(780, s, 0.15 * s)
+    z = quad(like, lo, hi)
+    cdf = lambda x: quad(like, lo, x) / z
+    linlin = lambda e, s: 0.03 * (e - s) if e > s else 0.01 * (s - e)
+    prior_q = lo + 0.25 * (hi - lo)
+    score = quad(lambda s: linlin(prior_q, s) / (hi - lo), lo, hi, points=[prior_q])
+    tp, ts = contract_tol(it, span), contract_tol(it, score)
+    tally.close(group, "posterior mean (quad)", it["case"]["posterior"]["mean"],
+                quad(lambda s: s * like(s), lo, hi) / z, tp)
+    q = optimize.brentq(lambda x: cdf(x) - 0.25, lo, hi, xtol=1e-12)
+    tally.close(group, "Bayes estimate = posterior quantile 0.25 (brentq on quad)",
+                it["case"]["bayes_estimate"], q, tp)
+    el = lambda e: quad(lambda s: linlin(e, s) * like(s), lo, hi, points=[e]) / z
+    tally.close(group, "expected loss at the quantile (quad)", it["case"]["expected_loss"],
+                el(q), ts)
+    tally.close(group, "prior-only risk (quad)", it["rule"]["prior_only_risk"], score, ts)
 
 
-# Pointing: normal prior N(0, 8^2) on -40..40 (5 sd: the cut tails change the posterior
-# by < 1e-6), gaussian vision sd 4, observed 3.2. Conjugate normal posterior
-# (Gelman et al., BDA ch. 2): variance 1/(1/64 + 1/16) = 12.8, mean 12.8 * 3.2/16 = 2.56.
+# Pointing: the continuous model: the prior N(0, 8^2) restricted to -40..40, gaussian
+# vision sd 4, observed 3.2. Conjugate normal posterior (Gelman et al., BDA ch. 2):
+# variance 1/(1/64 + 1/16) = 12.8, mean 12.8 * 3.2/16 = 2.56; the cut at ±40 lies over
+# 10 posterior sd away and moves it by < 1e-20. Estimates are real numbers (no estimate
+# grid): the Bayes aim maximizes E[payoff(e - s)] over the posterior, a piecewise-linear
+# payoff integrated by quad (knots as break points) and maximized by a scan refined with
+# minimize_scalar. Tolerances: accuracy × the state range (80 mm) for positions,
+# × the score scale (the largest |value|, 20) for payoffs; an aim also passes when its
+# own expected payoff is within the score tolerance of the best (a flat top).
 def check_pointing(folder, tally):
     group = "pointing_task"
     pt = load(folder, group)
-    # Cell masses in place of the density shift the mean by O(h^2) relative (h = 0.1 mm).
-    tally.close_rel(group, pt["case"]["posterior"]["mean"], 2.56, 1e-4, "posterior mean")
-    # sd on a grid of spacing h carries the cell variance h^2/12 only in the continuous
-    # reading; the grid's discrete sd differs from sqrt(12.8) by O(h^2) = 1e-2 relative at most.
-    tally.close_rel(group, pt["case"]["posterior"]["sd"], math.sqrt(12.8), 1e-3, "posterior sd")
-    # Bayes aim: brute force over the estimate grid of the payoff curve under the grid
-    # posterior recomputed here.
-    x = np.arange(-400, 401) / 10.0
-    pp = (norm.cdf(x + 0.05, 0, 8) - norm.cdf(x - 0.05, 0, 8)) * norm.pdf(3.2, x, 4)
-    pp /= pp.sum()
+    m, sd, span, scale = 2.56, math.sqrt(12.8), 80.0, 20.0
+    tp, ts = contract_tol(pt, span), contract_tol(pt, scale)
+    tally.close(group, "posterior mean 2.56", pt["case"]["posterior"]["mean"], m, tp)
+    tally.close(group, "posterior sd sqrt(12.8)", pt["case"]["posterior"]["sd"], sd, tp)
     knots_e = [-5.001, -5, 5, 5.001, 12, 12.001]
     knots_v = [0, 10, 10, -20, -20, 0]
-    payoff = np.array([pp @ np.interp(a - x, knots_e, knots_v) for a in x])
-    best = x[int(np.argmax(payoff))]
-    tally.close_rel(group, pt["case"]["bayes_estimate"], best, 1e-9, "Bayes aim")
-    tally.close_rel(group, pt["case"]["expected_payoff"], float(payoff.max()), 1e-9,
-                    "expected payoff")
+
+    def payoff(e):
+        pts = [e - k for k in knots_e]
+        return quad(lambda s: np.interp(e - s, knots_e, knots_v) * norm.pdf(s, m, sd),
+                    m - 14 * sd, m + 14 * sd, points=pts)
+    grid = np.linspace(-10, 10, 201)
+    k = int(np.argmax([payoff(e) for e in grid]))
+    res = optimize.minimize_scalar(lambda e: -payoff(e), bounds=(grid[k - 1], grid[k + 1]),
+                                   method="bounded", options={"xatol": 1e-10})
+    best, top = float(res.x), -float(res.fun)
+    aim = pt["case"]["bayes_estimate"]
+    tally.record(group, abs(aim - best) <= tp or top - payoff(aim) <= ts,
+                 f"Bayes aim: lopside {aim!r}, continuous {best!r} (tolerance {tp:.3g}); "
+                 f"expected payoff there {payoff(aim)!r}, best {top!r}")
+    tally.close(group, "expected payoff (quad, the continuous best)", pt["case"]["expected_payoff"],
+                top, ts)
 
 
 def main():

@@ -48,7 +48,7 @@ import sys
 import time
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import integrate, optimize, stats
 
 sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
 import refkit  # noqa: E402  (the shared harness, beside this file)
@@ -319,27 +319,30 @@ def check_direct(folder, tally):
     check_counts(tally, group, res, "bayes", labels, ["low", "high"], prior, probs)
 
 
-def grid_prior(states, mean, sd, h):
-    """Cell masses of a normal prior over [s - h/2, s + h/2], renormalized (format.md)."""
-    w = stats.norm.cdf(states + h / 2, mean, sd) - stats.norm.cdf(states - h / 2, mean, sd)
-    return w / w.sum()
-
-
 def check_grid_states(folder, tally):
     """Grid states with a banded loss: accept costs 2 below 5, reject costs 3 at or above 5.
-    Bayes accepts where 3 P(s >= 5 | x) > 2 P(s < 5 | x); the criterion is found here with
-    brentq on our own posterior over the same grid. A believed rule that takes the noise
-    for 0.75 decides at its own criterion, judged under the true noise."""
-    h = 0.1
-    s = np.round(np.arange(0, 10 + h / 2, h), 10)
-    prior = grid_prior(s, 4, 2, h)
-    above = s >= 5
+    The continuous model (design.md): the state is N(4, 2²) restricted to [0, 10], so the
+    posterior given x is the conjugate normal (Gelman et al. 2013, sec. 2.5, from memory)
+    restricted to [0, 10], and P(s >= 5 | x) is a ratio of normal CDF differences. Bayes
+    accepts where 3 P(s >= 5 | x) > 2 P(s < 5 | x); the criterion is found here with brentq
+    on that posterior. A believed rule that takes the noise for 0.75 decides at its own
+    criterion, judged under the true noise. P(accept) = ∫ prior(s) Q((c - s)/1.5) ds over
+    [0, 10] (scipy quad, error < 1e-12, far below the binomial interval's width)."""
+    lo, hi, cut, mu, tau = 0.0, 10.0, 5.0, 4.0, 2.0
+    z = stats.norm.cdf(hi, mu, tau) - stats.norm.cdf(lo, mu, tau)
 
     def criterion(sd):
         def diff(x):
-            w = prior * stats.norm.pdf(x, s, sd)
-            return 3 * w[above].sum() - 2 * w[~above].sum()
+            v = 1 / (1 / tau ** 2 + 1 / sd ** 2)
+            m, r = v * (mu / tau ** 2 + x / sd ** 2), math.sqrt(v)
+            f = lambda t: stats.norm.cdf((t - m) / r)
+            above = (f(hi) - f(cut)) / (f(hi) - f(lo))
+            return 3 * above - 2 * (1 - above)
         return optimize.brentq(diff, -5, 15, xtol=1e-12)
+
+    def p_accept(c):
+        return integrate.quad(lambda s: stats.norm.pdf(s, mu, tau) / z * stats.norm.sf(c, s, 1.5),
+                              lo, hi, epsabs=1e-13, epsrel=1e-12, limit=200)[0]
 
     text = ("[problem]\ntitle = grid\n[states]\nfrom = 0\nto = 10\nstep = 0.1\n"
             "[prior]\nfamily = normal\nmean = 4\nsd = 2\n[evidence.eye]\nnoise = gaussian\n"
@@ -349,8 +352,7 @@ def check_grid_states(folder, tally):
             SIM.format(sessions=500, trials=400, seed=8, rules="bayes, sharp"))
     res = run(folder, "grid_states", text)
     for rule, sd in (("bayes", 1.5), ("sharp", 0.75)):
-        c = criterion(sd)
-        acc = float(prior @ stats.norm.sf(c, s, 1.5))
+        acc = p_accept(criterion(sd))
         check_counts(tally, "choices: grid states with bands; believed rule on the grid path",
                      res, rule, None, ["reject", "accept"], None, [1 - acc, acc], grid=True)
 

@@ -37,7 +37,7 @@ import math
 import sys
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import integrate, optimize, stats
 
 sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
 import refkit  # noqa: E402  (the shared harness, beside this file)
@@ -337,10 +337,15 @@ def check_count_rates(folder, tally):
 
 
 def check_grid_rates(folder, tally):
-    # Grid states N(800, 120^2), gaussian clock sd 80, `long` pays above 800. The rule
-    # chooses long above its switch point x*, so P(long) = sum_s prior(s) Q((x* - s)/80)
-    # over the grid's states (as the JSON lists them), and close to the continuous
-    # predictive tail Q((x* - 800)/sqrt(120^2 + 80^2)).
+    # Grid states N(800, 120^2) on [300, 1300], gaussian clock sd 80, `long` pays above 800.
+    # The continuous model (design.md): the prior is the normal restricted to [300, 1300],
+    # the posterior given x the conjugate normal (Gelman et al. 2013, sec. 2.5, from
+    # memory) restricted likewise. The rule chooses long above its switch point x*, where
+    # (1 - L1)·P(s < 800 | x) = 2·P(s > 800 | x) with L1 = payoff.long[1] (brentq), so
+    # P(long) = ∫ prior(s) Q((x* - s)/80) ds over [300, 1300] (scipy quad, error < 1e-12).
+    # Contract: the switch point within accuracy × the measurement span, the rate within
+    # accuracy (absolute). Besides, close to the unrestricted predictive tail
+    # Q((x* - 800)/sqrt(120^2 + 80^2)): the 4.2-sd cut moves it by under 1e-5.
     text = ("[problem]\ntitle = bands\n[states]\nfrom = 300\nto = 1300\npoints = 1001\n"
             "[prior]\nfamily = normal\nmean = 800\nsd = 120\n"
             "[evidence.clock]\nnoise = gaussian\nsd = 80\ngrid_points = 501\n"
@@ -351,15 +356,30 @@ def check_grid_rates(folder, tally):
     one = run(folder, "grid1", text, threads=1)
     tally.record("sweeps: the same numbers on 1 thread as on several",
                  one["sweeps"] == out["sweeps"], "grid sweep differs between thread counts")
-    states = np.array(out["problem"]["states"]["grid"])
-    prior = np.array(out["problem"]["prior"])
-    sd = math.hypot(120, 80)
+    mu, tau, sig, lo, hi, cut = 800.0, 120.0, 80.0, 300.0, 1300.0, 800.0
+    z = stats.norm.cdf(hi, mu, tau) - stats.norm.cdf(lo, mu, tau)
+    v = 1 / (1 / tau ** 2 + 1 / sig ** 2)
+
+    def below(x):
+        m, r = v * (mu / tau ** 2 + x / sig ** 2), math.sqrt(v)
+        f = lambda t: stats.norm.cdf((t - m) / r)
+        return (f(cut) - f(lo)) / (f(hi) - f(lo))
+
+    acc = out.get("accuracy") or {}
+    asked = acc.get("asked", 1e-6)
+    span = (acc.get("scales") or {}).get("measurement_span")
+    sd = math.hypot(tau, sig)
     for pt in out["sweeps"][0]["points"]:
+        l1 = pt["x"]
+        xs = optimize.brentq(lambda x: (1 - l1) * below(x) - 2 * (1 - below(x)), 0, 1600,
+                             xtol=1e-12)
+        want = integrate.quad(lambda s: stats.norm.pdf(s, mu, tau) / z * stats.norm.sf(xs, s, sig),
+                              lo, hi, epsabs=1e-14, epsrel=1e-12, limit=200)[0]
         x = pt["switch_points"][0]["x"]
-        want = float(prior @ stats.norm.sf(x, states, 80))
-        tally.close_rel("generic path rates: grid states (sum of normal tails)",
-                        pt["rates"]["long"], want, CDF_TOL, f"x={pt['x']}")
-        # The 1-ms grid moves the prior's variance by Sheppard's 1/12: far below 1e-5.
+        tally.close("generic path rates: grid states, switch point (continuous model)",
+                    f"x={l1}: switch point", x, xs, asked * (span or hi - lo))
+        tally.close("generic path rates: grid states (continuous rate, quad)",
+                    f"x={l1}: P(long)", pt["rates"]["long"], want, asked + 1e-12)
         tally.close_rel("generic path rates: grid states (continuous predictive tail)",
                         pt["rates"]["long"], stats.norm.sf(x, 800, sd), 1e-5, f"x={pt['x']}")
 

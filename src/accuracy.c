@@ -68,6 +68,18 @@ static void add(quantity_list *l, quantity_kind kind, double scale, double *valu
     q->value = value;
 }
 
+/* Returns true when the posterior's largest mass has a neighbour as large (to 1e-9):
+ * then its mode is any point of a flat top, not a number with an error. */
+static bool flat_peak(const lop_problem *p, const double *post)
+{
+    size_t k = 0;
+    for (size_t s = 1; s < p->n_states; s++)
+        if (post[s] > post[k])
+            k = s;
+    double next = fmax(k > 0 ? post[k - 1] : 0, k + 1 < p->n_states ? post[k + 1] : 0);
+    return post[k] - next <= 1e-9 * post[k];
+}
+
 static void collect_case(const lop_problem *p, lop_results *r, quantity_list *l)
 {
     lop_case_result *c = &r->kase;
@@ -75,7 +87,8 @@ static void collect_case(const lop_problem *p, lop_results *r, quantity_list *l)
         add(l, QTY_STATE, 0, &c->summary.mean, "case.posterior.mean");
         add(l, QTY_STATE, 0, &c->summary.sd, "case.posterior.sd");
         add(l, QTY_STATE, 0, &c->summary.median, "case.posterior.median");
-        add(l, QTY_STATE, 0, &c->summary.mode, "case.posterior.mode");
+        if (!flat_peak(p, c->posterior))
+            add(l, QTY_STATE, 0, &c->summary.mode, "case.posterior.mode");
         add(l, QTY_STATE, 0, &c->summary.q05, "case.posterior.q05");
         add(l, QTY_STATE, 0, &c->summary.q95, "case.posterior.q95");
     }
@@ -250,23 +263,39 @@ static int add_miss(lop_accuracy *acc, const char *name, double error, double al
     return 0;
 }
 
-/* Fills fine->accuracy from the numbers of fine and coarse, whose errors shrink by the
- * factor `ratio` from coarse to fine (the square of the ratio of the steps): the finer
- * number's error is about |q - q'|/(ratio - 1), reported ERROR_SAFETY times that. With
- * extrapolate, also moves fine's
- * numbers to the step 0 (Richardson 1911: q + (q - q')/(ratio - 1)). Returns -1 when
- * memory runs out. */
+/* Returns the number named `name` in the sorted list l, or NULL. */
+static const quantity *find(const quantity_list *l, const char *name)
+{
+    quantity key;
+    snprintf(key.name, sizeof key.name, "%s", name);
+    return bsearch(&key, l->items, l->n, sizeof *l->items, by_name);
+}
+
+/* Fills fine->accuracy from the numbers of three answers on grids whose steps shrink
+ * from coarsest to coarse to fine, the errors by the factors r_cc (coarsest to coarse)
+ * and r_cf (coarse to fine), the squares of the ratios of the steps. Richardson (1911)
+ * moves a number q with the coarser q' to the step 0: q + (q - q')/(r - 1). The
+ * extrapolation from (coarse, fine) is the answer; its error is estimated as the
+ * distance to the extrapolation from (coarsest, coarse), which is of the coarser one's
+ * order and so bounds it, ERROR_SAFETY times; without the coarsest answer (or the
+ * number on it), as ERROR_SAFETY times the unextrapolated fine number's error,
+ * |q - q'|/(r - 1). With extrapolate, fine's numbers are moved. Returns -1 when memory
+ * runs out. */
 static int compare(const lop_problem *pf, lop_results *fine, const lop_problem *pc,
-                   lop_results *coarse, double ratio, bool extrapolate)
+                   lop_results *coarse, double r_cf, const lop_problem *pcc,
+                   lop_results *coarsest, double r_cc, bool extrapolate)
 {
     lop_accuracy *acc = &fine->accuracy;
-    quantity_list lf = {0}, lc = {0};
+    quantity_list lf = {0}, lc = {0}, lcc = {0};
     collect(pf, fine, &lf);
     collect(pc, coarse, &lc);
-    int rc = lf.failed || lc.failed ? -1 : 0;
+    if (coarsest)
+        collect(pcc, coarsest, &lcc);
+    int rc = lf.failed || lc.failed || lcc.failed ? -1 : 0;
     if (rc == 0) {
         qsort(lf.items, lf.n, sizeof *lf.items, by_name);
         qsort(lc.items, lc.n, sizeof *lc.items, by_name);
+        qsort(lcc.items, lcc.n, sizeof *lcc.items, by_name);
     }
     free(acc->missed);
     acc->missed = NULL;
@@ -285,7 +314,17 @@ static int compare(const lop_problem *pf, lop_results *fine, const lop_problem *
         }
         quantity *q = &lf.items[i++];
         double f = *q->value, c = *lc.items[j++].value;
-        double error = ERROR_SAFETY * fabs(f - c) / (ratio - 1);
+        double better = f + (f - c) / (r_cf - 1);
+        const quantity *qq = coarsest ? find(&lcc, q->name) : NULL;
+        double error = ERROR_SAFETY * fabs(f - c) / (r_cf - 1);
+        if (qq) {
+            /* Two extrapolations that agree bound the error of a number that converges
+             * smoothly; one whose convergence oscillates (a cut or a window edge moving
+             * within its cell) can agree by chance, so the estimate is never below the
+             * unextrapolated number's. */
+            double earlier = c + (c - *qq->value) / (r_cc - 1);
+            error = fmax(error, ERROR_SAFETY * fabs(better - earlier));
+        }
         double scale = scale_of(acc, q);
         acc->compared++;
         if (error / scale > acc->reached) {
@@ -297,13 +336,13 @@ static int compare(const lop_problem *pf, lop_results *fine, const lop_problem *
             rc = -1;
         if (!extrapolate)
             continue;
-        double better = f + (f - c) / (ratio - 1);
         if (q->kind == QTY_PROBABILITY)
             better = fmin(1, fmax(0, better));
         *q->value = better;
     }
     free(lf.items);
     free(lc.items);
+    free(lcc.items);
     return rc;
 }
 
@@ -425,11 +464,12 @@ static double error_ratio(const lop_problem *fine, const lop_results *rf,
     return r * r;
 }
 
-/* Returns the work of solving p once: state points times measurement points. */
+/* Returns the work of solving p once: state points times measurement points, times the
+ * rules judged on each posterior (the Bayes rule and every [rule.NAME]). */
 static double work_of(const lop_problem *p, const lop_results *r)
 {
     double m = r->has_rule && r->rule.computed && r->rule.n_grid > 0 ? (double)r->rule.n_grid : 1;
-    return (double)p->n_states * m;
+    return (double)p->n_states * m * (double)(1 + p->n_rules);
 }
 
 static double seconds_now(void)
@@ -478,12 +518,13 @@ static lop_status solve_at(const lop_problem *p, int level, const lop_progress *
 }
 
 /* Returns how many halvings beyond the current level should bring the error from
- * `reached` below `asked` when it falls as the square of the step, within the work
- * budget; each halving multiplies the work by `growth` (2: the state grid; 4: the
- * measurement grid too). */
+ * `reached` below `asked` when the extrapolated numbers' error falls as the fourth power
+ * of the step (a second-order method after one Richardson step; if it falls slower, the
+ * next round halves again), within the work budget; each halving multiplies the work by
+ * `growth` (2: the state grid; 4: the measurement grid too). */
 static int halvings_wanted(double reached, double asked, double work, double growth)
 {
-    int k = (int)ceil(log(reached / asked) / log(4.0));
+    int k = (int)ceil(log(reached / asked) / log(16.0));
     if (k < 1)
         k = 1;
     while (k > 1 && work * pow(growth, k) > LOP_ACCURACY_WORK)
@@ -494,94 +535,106 @@ static int halvings_wanted(double reached, double asked, double work, double gro
 lop_status lop_accuracy_solve(const lop_problem *p, const lop_progress *progress,
                               lop_solution *out, lop_error *err)
 {
-    answer fine = {0}, coarse = {0};
+    /* Three answers: [0] on the finest grids, [1] and [2] with twice and four times the
+     * step (coarser than the file's through [problem] refine = -1 and -2). */
+    answer a[3] = {{0}};
     int level = p->refine;
     size_t solves = 0;
     double started = seconds_now();
-    if (solve_at(p, level, progress, &fine, &solves, err) != LOP_OK)
+    if (solve_at(p, level, progress, &a[0], &solves, err) != LOP_OK)
         goto fail;
     double first_solve = seconds_now() - started;
-    fine.r->accuracy.asked = p->accuracy;
-    set_scales(p, fine.r, &fine.r->accuracy);
-    if (rests_on_grids(p)) {
-        /* The companion: the same problem on grids with twice the step (or, for a file
-         * that asks for the coarsest level, half the step: then that one is the answer). */
-        int companion = level > -1 ? level - 1 : level + 1;
-        if (solve_at(p, companion, progress, &coarse, &solves, err) != LOP_OK)
+    a[0].r->accuracy.asked = p->accuracy;
+    set_scales(p, a[0].r, &a[0].r->accuracy);
+    if (rests_on_grids(p) && level - 1 >= LOP_REFINE_MIN) {
+        if (solve_at(p, level - 1, progress, &a[1], &solves, err) != LOP_OK ||
+            (level - 2 >= LOP_REFINE_MIN &&
+             solve_at(p, level - 2, progress, &a[2], &solves, err) != LOP_OK))
             goto fail;
-        if (companion > level && coarse.r) {
-            answer t = fine;
-            fine = coarse;
-            coarse = t;
-            level = companion;
-        }
-        while (coarse.r) {
-            const lop_problem *fp = fine.p ? fine.p : p, *cp = coarse.p ? coarse.p : p;
-            lop_accuracy *acc = &fine.r->accuracy;
+        for (bool last = false;;) {
+            const lop_problem *pp[3];
+            for (int i = 0; i < 3; i++)
+                pp[i] = a[i].p ? a[i].p : p;
+            lop_accuracy *acc = &a[0].r->accuracy;
             acc->asked = p->accuracy;
-            acc->estimated = true;
-            set_scales(fp, fine.r, acc);
-            double ratio = error_ratio(fp, fine.r, cp, coarse.r);
-            if (compare(fp, fine.r, cp, coarse.r, ratio, false) != 0) {
+            acc->estimated = a[1].r != NULL;
+            set_scales(pp[0], a[0].r, acc);
+            if (!a[1].r)
+                break;
+            double r01 = error_ratio(pp[0], a[0].r, pp[1], a[1].r);
+            double r12 = a[2].r ? error_ratio(pp[1], a[1].r, pp[2], a[2].r) : 0;
+            if (compare(pp[0], a[0].r, pp[1], a[1].r, r01, pp[2], a[2].r, r12, last) != 0) {
                 lop_error_run(err, "out of memory");
                 goto fail;
             }
-            double work = work_of(fp, fine.r);
-            double growth = (fp->states_kind == LOP_STATES_GRID ? 2 : 1) * (fp->estimate ? 2 : 1);
-            if (acc->reached <= acc->asked || work * growth > LOP_ACCURACY_WORK ||
-                level >= LOP_REFINE_MAX)
+            if (last)
                 break;
+            double work = work_of(pp[0], a[0].r);
+            double growth = (pp[0]->states_kind == LOP_STATES_GRID ? 2 : 1) *
+                            (pp[0]->estimate ? 2 : 1);
+            last = acc->reached <= acc->asked || work * growth > LOP_ACCURACY_WORK ||
+                   level >= LOP_REFINE_MAX;
+            if (last)
+                continue; /* once more, to extrapolate */
             /* Not reached: halve the steps as often as the error's fall asks (jumping
-             * over levels), and compare with the level just below the new one. */
+             * over levels), with the two levels just below the new one as companions. */
             int k = halvings_wanted(acc->reached, acc->asked, work, growth);
             if (level + k > LOP_REFINE_MAX)
                 k = LOP_REFINE_MAX - level;
-            answer next = {0}, below = {0};
-            if (solve_at(p, level + k, progress, &next, &solves, err) != LOP_OK)
-                goto fail;
-            if (!next.r)
-                break; /* past the grids' limits: keep what is reached */
-            if (k > 1 && solve_at(p, level + k - 1, progress, &below, &solves, err) != LOP_OK) {
-                answer_free(&next);
-                goto fail;
+            /* The answers at the three new levels: kept ones where a level is kept (the
+             * first step, k = 1), new solves for the rest; nothing kept is given up until
+             * every new one is in hand. */
+            answer next[3] = {{0}};
+            lop_status st = LOP_OK;
+            bool fresh[3];
+            for (int i = 0; i < 3 && st == LOP_OK; i++) {
+                int kept = i >= k ? i - k : -1; /* level + k - i == level - (i - k) */
+                fresh[i] = kept < 0 || kept > 2 || !a[kept].r;
+                if (fresh[i])
+                    st = solve_at(p, level + k - i, progress, &next[i], &solves, err);
+                else
+                    next[i] = a[kept];
             }
-            answer_free(&coarse);
-            if (k > 1) {
-                answer_free(&fine);
-                coarse = below;
-            } else {
-                coarse = fine;
+            if (st != LOP_OK || !next[0].r || !next[1].r) {
+                for (int i = 0; i < 3; i++)
+                    if (fresh[i])
+                        answer_free(&next[i]);
+                if (st != LOP_OK)
+                    goto fail;
+                last = true; /* past the grids' limits: keep what is reached */
+                continue;
             }
-            fine = next;
+            for (int i = 0; i < 3; i++) {
+                bool reused = false;
+                for (int j = 0; j < 3; j++)
+                    reused |= !fresh[j] && next[j].r == a[i].r;
+                if (!reused)
+                    answer_free(&a[i]);
+            }
+            for (int i = 0; i < 3; i++)
+                a[i] = next[i];
             level += k;
         }
-        if (coarse.r) {
-            const lop_problem *fp = fine.p ? fine.p : p, *cp = coarse.p ? coarse.p : p;
-            if (compare(fp, fine.r, cp, coarse.r, error_ratio(fp, fine.r, cp, coarse.r), true) !=
-                0) {
-                lop_error_run(err, "out of memory");
-                goto fail;
-            }
-        }
     }
-    const lop_problem *solved = fine.p ? fine.p : p;
-    lop_accuracy *acc = &fine.r->accuracy;
+    const lop_problem *solved = a[0].p ? a[0].p : p;
+    lop_accuracy *acc = &a[0].r->accuracy;
     acc->refine = solved->refine;
     acc->solves = solves;
     acc->seconds = seconds_now() - started;
     acc->seconds_first = first_solve;
     acc->state_points = solved->states_kind == LOP_STATES_GRID ? solved->n_states : 0;
     char defect[512];
-    if (!lop_accuracy_invariants(solved, fine.r, defect, sizeof defect)) {
+    if (!lop_accuracy_invariants(solved, a[0].r, defect, sizeof defect)) {
         lop_error_run(err, "a defect: %s; please report it with the problem file", defect);
         goto fail;
     }
-    answer_free(&coarse);
-    out->refined = fine.p;
-    out->results = fine.r;
+    answer_free(&a[1]);
+    answer_free(&a[2]);
+    out->refined = a[0].p;
+    out->results = a[0].r;
     return LOP_OK;
 fail:
-    answer_free(&coarse);
-    answer_free(&fine);
+    for (int i = 0; i < 3; i++)
+        answer_free(&a[i]);
     return err->status;
 }

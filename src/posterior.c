@@ -30,16 +30,6 @@ double lop_posterior_normalize_above(const double *logw, size_t n, double cut, d
     return top + log(sum);
 }
 
-/* Writes the cell of state i of a grid: between the midpoints to its neighbours, the
- * first and last cells ending at the first and last state (the state range). */
-static void cell(const lop_problem *pr, size_t i, double *lo, double *hi)
-{
-    const double *x = pr->state_values;
-    size_t n = pr->n_states;
-    *lo = i == 0 ? x[0] : 0.5 * (x[i - 1] + x[i]);
-    *hi = i + 1 == n ? x[n - 1] : 0.5 * (x[i] + x[i + 1]);
-}
-
 /* Returns the quantile at probability q of the distribution p over listed values: the
  * smallest value whose CDF reaches q. */
 static double listed_quantile(const lop_problem *pr, const double *p, double q)
@@ -68,29 +58,32 @@ static void quantiles(const lop_problem *pr, const double *p, double out[3])
         out[j] = listed_quantile(pr, p, q[j]);
 }
 
-/* Returns the mode on a grid: the vertex of the parabola through the log masses of the
- * state of largest mass and its neighbours, clamped to its cell, so a smooth posterior's
- * mode is found to second order (three-point parabolic interpolation, as in Brent 1973,
- * ch. 5, from memory); the state itself at an end of the grid or beside a state
- * without mass. */
-static double grid_mode(const lop_problem *pr, const double *p, size_t k)
+double lop_posterior_peak(const double *x, const double *l, size_t n, size_t k)
 {
-    const double *x = pr->state_values;
-    size_t n = pr->n_states;
-    if (k == 0 || k + 1 >= n || p[k - 1] <= 0 || p[k + 1] <= 0)
+    if (k == 0 || k + 1 >= n || !isfinite(l[k - 1]) || !isfinite(l[k + 1]))
         return x[k];
-    double l[3] = {log(p[k - 1]), log(p[k]), log(p[k + 1])}, lo, hi;
     /* vertex of the parabola through (x_j, l_j): x_k - (1/2)·(b²·v - c²·u) / (b·v - c·u)
      * with b = x_k - x_{k-1}, c = x_k - x_{k+1}, u = l_k - l_{k-1}, v = l_k - l_{k+1};
      * the denominator is > 0 when the middle lies above the chord (a maximum) */
     double b = x[k] - x[k - 1], c = x[k] - x[k + 1];
-    double u = l[1] - l[0], v = l[1] - l[2];
+    double u = l[k] - l[k - 1], v = l[k] - l[k + 1];
     double den = b * v - c * u;
     if (!(den > 0))
         return x[k];
     double vertex = x[k] - 0.5 * (b * b * v - c * c * u) / den;
-    cell(pr, k, &lo, &hi);
+    double lo = 0.5 * (x[k - 1] + x[k]), hi = 0.5 * (x[k] + x[k + 1]);
     return vertex < lo ? lo : vertex > hi ? hi : vertex;
+}
+
+/* Returns the mode on a grid: the peak of the log masses (lop_posterior_peak); the state
+ * itself beside a state without mass. */
+static double grid_mode(const lop_problem *pr, const double *p, size_t k)
+{
+    size_t n = pr->n_states;
+    if (k == 0 || k + 1 >= n || p[k - 1] <= 0 || p[k + 1] <= 0)
+        return pr->state_values[k];
+    double l[3] = {log(p[k - 1]), log(p[k]), log(p[k + 1])};
+    return lop_posterior_peak(pr->state_values + k - 1, l, 3, 1);
 }
 
 void lop_posterior_summarize(const lop_problem *pr, const double *p, lop_summary *out)

@@ -195,10 +195,11 @@ static lop_status build_problem_section(builder *b)
     if (pb_number(b, "problem", "refine", false, 0, &levels) != LOP_OK)
         return b->err->status;
     const lop_entry *refine = pb_find(b, "problem", "refine");
-    if (refine && !(levels >= -1 && levels <= LOP_REFINE_MAX && levels == floor(levels)))
+    if (refine &&
+        !(levels >= LOP_REFINE_MIN && levels <= LOP_REFINE_MAX && levels == floor(levels)))
         return pb_error(b, refine->line, "problem", "refine",
-                        "expected a whole number from -1 (half the cells) to %d, found %s",
-                        LOP_REFINE_MAX, refine->value);
+                        "expected a whole number from %d (a quarter of the cells) to %d, "
+                        "found %s", LOP_REFINE_MIN, LOP_REFINE_MAX, refine->value);
     p->refine = (int)levels;
     return LOP_OK;
 }
@@ -532,7 +533,7 @@ lop_problem *pb_build_nested(const lop_config *cfg, lop_error *err)
 
 double lop_problem_refined_cells(double cells, int refine)
 {
-    return refine >= 0 ? cells * ldexp(1, refine) : ceil(cells / 2);
+    return refine >= 0 ? cells * ldexp(1, refine) : fmax(1, ceil(ldexp(cells, refine)));
 }
 
 bool lop_problem_numeric_states(const lop_problem *p)

@@ -166,6 +166,8 @@ static double compared_decision(const grid_job *job, thread_work *t, size_t k, d
         break;
     }
     case LOP_RULE_KIND_MAX_LIKELIHOOD: {
+        /* The state of largest likelihood, then the peak between its neighbours: the
+         * estimate is a real number like the Bayes estimate it is compared with. */
         size_t best = 0;
         double top = -INFINITY;
         for (size_t s = 0; s < p->n_states; s++) {
@@ -175,7 +177,14 @@ static double compared_decision(const grid_job *job, thread_work *t, size_t k, d
                 best = s;
             }
         }
-        estimate = p->state_values[best];
+        if (best == 0 || best + 1 >= p->n_states || p->states_kind != LOP_STATES_GRID) {
+            estimate = p->state_values[best];
+            break;
+        }
+        double ll[3];
+        for (size_t j = 0; j < 3; j++)
+            ll[j] = lop_evidence_log_summary(job->c, best - 1 + j, x, job->c->repeats);
+        estimate = lop_posterior_peak(p->state_values + best - 1, ll, 3, 1);
         break;
     }
     case LOP_RULE_KIND_THRESHOLD: {

@@ -423,15 +423,16 @@ const char *sim_decider_init(sim_decider *d, const lop_problem *p, const lop_res
         return r->compared[rule].not_computed_why ? r->compared[rule].not_computed_why
                                                   : "the rule was not computed";
     if (p->estimate) {
-        /* The maximum-likelihood state, and the posterior mode over listed values, follow
+        /* The maximum-likelihood state and the posterior mode over listed values follow
          * the measurement in steps of the states: interpolated, then put on the nearest
          * state, they track the rule between measurement points, where the value at the
          * nearest point alone would cost a bias of order the squared cell width (and the
-         * analytic risk, a sum over the points, is that of the rule itself). On a grid the
-         * mode is a vertex between states and moves smoothly. */
-        bool stepped_mode = spec->kind == LOP_RULE_KIND_MODE &&
-                            p->states_kind != LOP_STATES_GRID;
-        if (stepped_mode || spec->kind == LOP_RULE_KIND_MAX_LIKELIHOOD)
+         * analytic risk, a sum over the points, is that of the rule itself). On a grid
+         * both are vertices between states and move smoothly. */
+        bool stepped = (spec->kind == LOP_RULE_KIND_MODE ||
+                        spec->kind == LOP_RULE_KIND_MAX_LIKELIHOOD) &&
+                       p->states_kind != LOP_STATES_GRID;
+        if (stepped)
             snap_to_values(d, p->state_values, p->n_states);
         st = grid_values(d, tab, decision, NULL, true,
                          tab->count_grid ? SIM_GRID_NEAREST : SIM_GRID_INTERPOLATE);

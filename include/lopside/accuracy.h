@@ -14,8 +14,8 @@
 #include "lopside/results.h"
 
 /* The most work (state points times measurement points of one solve) the accuracy loop
- * spends on one problem before it reports what it reached: a few seconds on one core. */
-#define LOP_ACCURACY_WORK 1e8
+ * spends on one problem before it reports what it reached: about a second on two cores. */
+#define LOP_ACCURACY_WORK 2e7
 
 /* What lop_accuracy_solve returns: the results and, when the grids were refined, the
  * refined problem they belong to (the writers need that one); the caller frees both. */

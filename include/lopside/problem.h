@@ -18,6 +18,7 @@
  * grids that [problem] refine may ask for. */
 #define LOP_ACCURACY_DEFAULT 1e-6
 #define LOP_REFINE_MAX 20
+#define LOP_REFINE_MIN (-2)
 /* Most cells of a state grid unless the file raises it with [states] max_points. */
 #define LOP_GRID_POINTS_LIMIT 1000000
 
@@ -132,8 +133,8 @@ typedef struct lop_problem {
     char *path;              /* the problem file, as given */
     char *title, *notes, *unit, *score_unit;
     double accuracy;         /* [problem] accuracy: asked of every reported number */
-    int refine;              /* [problem] refine: times the grids' steps are halved (-1:
-                                doubled, the accuracy check's coarse companion) */
+    int refine;              /* [problem] refine: times the grids' steps are halved (-1, -2:
+                                doubled, quadrupled: the accuracy check's companions) */
 
     lop_states_kind states_kind;
     size_t n_states;
@@ -198,7 +199,7 @@ static inline double lop_problem_loss(const lop_problem *p, size_t a, size_t s)
 }
 
 /* Returns the number of cells a grid of `cells` cells gets at [problem] refine level
- * `refine`: cells·2^refine, or half of them rounded up at -1. */
+ * `refine`: cells·2^refine, rounded up (at least 1) below 0. */
 double lop_problem_refined_cells(double cells, int refine);
 
 /* Returns true when states are numbers (values or a grid). */

@@ -678,10 +678,15 @@ def random_problems(n, seed):
         if rng.random() < 0.5:
             k = rng.choice([1, 2])
             cuts = sorted(round(mu + rng.gauss(0, tau), 4) for _ in range(k))
-            rows = {"go": ", ".join(str(rng.choice([0, 1, 2, 4])) for _ in range(k + 1)),
-                    "stay": ", ".join(str(rng.choice([0, 1, 3, 5])) for _ in range(k + 1))}
-            if rows["go"] == rows["stay"]:
-                rows["stay"] = ", ".join(["6"] * (k + 1))
+            # Neither row may be at least as good in every band: when one action never
+            # loses, a "switch point" is only where the other bands' posterior mass
+            # underflows, and its position is rounding noise in any computation.
+            while True:
+                go = [rng.choice([0, 1, 2, 4]) for _ in range(k + 1)]
+                stay = [rng.choice([0, 1, 3, 5]) for _ in range(k + 1)]
+                if any(a < b for a, b in zip(go, stay)) and any(b < a for a, b in zip(go, stay)):
+                    break
+            rows = {"go": ", ".join(map(str, go)), "stay": ", ".join(map(str, stay))}
             text = choice(f"Random choice {i}", states, prior, ev, ["go", "stay"],
                           ("loss", dict({"cuts": ", ".join(map(str, cuts))}, **rows)))
         else:

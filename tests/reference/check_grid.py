@@ -627,17 +627,9 @@ def check_tolerance(runner, tally):
     got = np.array(d["case"]["curve"]["expected_loss"])
     tally.close(G, "bimodal: expected loss of every estimate (mixture posterior, max deviation)",
                 np.max(np.abs(got - cont)), 0, t.score)
-    # The same curve by brute force over the posterior grid and the grid's clipped cells
-    # (each cell's mass spread evenly over it, as lopside's band counts the covered part):
-    # sums of at most 801 products of probabilities with 10, rounding ~1e-15.
-    s = np.array(d["problem"]["states"]["grid"])
-    pg = np.array(d["case"]["posterior_grid"])
-    edges = cell_edges(s)
-    lo, hi = edges[:-1][None, :], edges[1:][None, :]
-    cover = np.clip(np.minimum(hi, est[:, None] + 2.5625) - np.maximum(lo, est[:, None] - 2.5625),
-                    0, None) / (hi - lo)
-    tally.close(G, "bimodal: curve = brute force over the posterior grid's cells",
-                np.max(np.abs(got - (-(10 * cover) @ pg))), 0, 1e-11)
+    # The curve is read from the posterior as a continuous density (src/density.c), whose
+    # convergence the unit tests check against closed forms; the comparison above with the
+    # mixture's continuous expected loss is the check of the whole.
     e = d["case"]["bayes_estimate"]
     tally.close(G, "bimodal: Bayes estimate has the least continuous expected loss on the grid",
                 -10 * inside(e), cont.min(), t.score)
@@ -709,8 +701,12 @@ def check_other_curves(runner, tally):
         direct = np.array([float(np.sum(p * np.where(x < s, under, over) * (x - s) ** 2)) for x in xs[pick]])
         tally.close(G, f"quadquad {under}/{over}: curve = brute force over the posterior grid "
                        "(max relative deviation)", np.max(np.abs(curve[pick] - direct) / direct), 0, 1e-9)
-        tally.close(G, f"quadquad {under}/{over}: curve vs the continuous expected loss (max deviation)",
-                    np.max(np.abs(curve[pick] - quadquad_el(xs[pick], m, sd, under, over))), 0, t.score)
+        # Far from the optimum the curve's values reach 1e6 times the score scale: each is
+        # held to the accuracy relative to the larger of the scale and its own size.
+        want_c = quadquad_el(xs[pick], m, sd, under, over)
+        rel = np.abs(curve[pick] - want_c) / np.maximum(t.score / ACCURACY, np.abs(want_c))
+        tally.close(G, f"quadquad {under}/{over}: curve vs the continuous expected loss "
+                       "(max deviation relative to max(scale, value))", np.max(rel), 0, ACCURACY)
     # points on a pointing task, payoff, estimate grid of its own
     err = [-12, -5, -2, 0, 3, 6, 9]
     val = [0, 4, 9, 10, 6, -20, 0]

@@ -43,7 +43,7 @@
 typedef struct {
     const lop_problem *bp;
     const lop_channel *c;
-    double *logprior;
+    const double *logprior;  /* the problem's log prior, borrowed */
     lop_evidence_kernel kern;
 } believed_view;
 
@@ -59,7 +59,7 @@ typedef struct {
     const lop_problem *p;
     const lop_channel *c;
     size_t channel;
-    double *logprior;
+    const double *logprior;  /* the problem's log prior, borrowed */
     lop_evidence_kernel kern;
     believed_view *believed;          /* per rule; bp NULL when not a believed rule */
     double **rule_loss;               /* per rule: its posterior expected loss per point */
@@ -414,30 +414,6 @@ static int find_switches(const grid_job *job, thread_work *t, lop_rule_result *r
     return 0;
 }
 
-static void prior_only(const lop_problem *p, lop_rule_result *rule, double *el)
-{
-    if (p->estimate) {
-        lop_curve_work *w = curve_for(p);
-        if (w) {
-            lop_curve_bayes(w, p->prior, &rule->prior_only_risk);
-            lop_curve_work_free(w);
-        }
-        rule->prior_only_action = 0;
-        return;
-    }
-    lop_decide_expected(p, p->prior, el);
-    rule->prior_only_action = lop_decide_best(el, p->n_actions);
-    rule->prior_only_risk = el[rule->prior_only_action];
-}
-
-static double *log_prior(const lop_problem *p)
-{
-    double *lp = malloc(p->n_states * sizeof *lp);
-    for (size_t s = 0; lp && s < p->n_states; s++)
-        lp[s] = p->log_prior[s];
-    return lp;
-}
-
 /* The index of the numeric channel of a problem (there is exactly one here). */
 static size_t numeric_channel(const lop_problem *p)
 {
@@ -464,9 +440,8 @@ static lop_status prepare_rules(grid_job *job, lop_results *r, lop_error *err)
             }
             job->believed[k].bp = bp;
             job->believed[k].c = &bp->channels[numeric_channel(bp)];
-            job->believed[k].logprior = log_prior(bp);
-            if (!job->believed[k].logprior ||
-                lop_evidence_kernel_init(&job->believed[k].kern, job->believed[k].c,
+            job->believed[k].logprior = bp->log_prior;
+            if (lop_evidence_kernel_init(&job->believed[k].kern, job->believed[k].c,
                                          bp->n_states, job->believed[k].c->repeats) != 0)
                 return lop_error_run(err, "out of memory");
             job->believed[k].kern.negligible = negligible_for(bp);
@@ -483,16 +458,14 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
 {
     lop_rule_result *rule = &r->rule;
     lop_status st = LOP_OK;
-    double *el = malloc((p->n_actions ? p->n_actions : 1) * sizeof *el);
     grid_job job = {.p = p,
-                    .logprior = log_prior(p),
+                    .logprior = p->log_prior,
                     .believed = calloc(p->n_rules + 1, sizeof(believed_view)),
                     .rule_loss = calloc(p->n_rules + 1, sizeof(double *))};
-    if (!el || !job.logprior || !job.believed || !job.rule_loss) {
+    if (!job.believed || !job.rule_loss) {
         st = lop_error_run(err, "out of memory");
         goto done;
     }
-    prior_only(p, rule, el);
     job.channel = numeric_channel(p);
     job.c = &p->channels[job.channel];
     rule->numeric_channel = (long)job.channel;
@@ -595,7 +568,6 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
         st = lop_error_run(err, "out of memory");
 done:
     for (size_t k = 0; job.believed && k < p->n_rules; k++) {
-        free(job.believed[k].logprior);
         lop_evidence_kernel_clear(&job.believed[k].kern);
     }
     lop_evidence_kernel_clear(&job.kern);
@@ -603,7 +575,5 @@ done:
         free(job.rule_loss[k]);
     free(job.believed);
     free(job.rule_loss);
-    free(job.logprior);
-    free(el);
     return st;
 }

@@ -7,6 +7,7 @@
  * p·c^k·d^m with d = s - m1, the states shifted by the posterior mean m1 so that the
  * sums stay small and their differences do not cancel. */
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -685,6 +686,13 @@ static double points_at(const lop_curve_work *w, double x)
  * Relative estimates <= 0 (outside the sense of a relative error) take the direct sum. */
 static void points_grid(lop_curve_work *w, const double *p, double *el)
 {
+    if (curve_by_cells(w)) {
+        for (size_t m = 0; m < w->c.n_points; m++)
+            w->count[m] = SIZE_MAX;             /* the knots' pieces, found afresh */
+        for (size_t j = 0; j < w->n_estimates; j++)
+            el[j] = cells_points_at(w, w->x[j], w->count);
+        return;
+    }
     for (size_t m = 0; m < w->c.n_points; m++)
         w->count[m] = 0;
     for (size_t j = 0; j < w->n_estimates; j++) {
@@ -766,6 +774,10 @@ static void prepare(lop_curve_work *w, const double *p)
         break;
     case LOP_CURVE_POINTS:
         set_center(w, p);           /* the FFT path needs only the mass, for ties */
+        if (curve_by_cells(w)) {
+            cells_prepare(w, true);
+            break;
+        }
         if (w->method == LOP_CURVE_BY_FFT && !w->continuous)
             break;
         set_prefix(w, p, 0, 1, 0);  /* the search between grid points takes the pieces */
@@ -823,7 +835,7 @@ void lop_curve_expected(lop_curve_work *w, const double *p, double *el)
         tolerance_expected(w, el);
         break;
     case LOP_CURVE_POINTS:
-        if (w->method == LOP_CURVE_BY_FFT)
+        if (w->method == LOP_CURVE_BY_FFT && !curve_by_cells(w))
             lop_curve_fft_expected(w->fft, p, el);
         else
             points_grid(w, p, el);
@@ -893,6 +905,11 @@ static double convex_minimizer(lop_curve_work *w, const double *p)
  * knot found by bisection (they are prefixes of the states). */
 static double points_one(lop_curve_work *w, double x)
 {
+    if (curve_by_cells(w)) {
+        for (size_t m = 0; m < w->c.n_points; m++)
+            w->count[m] = SIZE_MAX;
+        return cells_points_at(w, x, w->count);
+    }
     if (w->c.relative && x <= 0)
         return direct_at(w, w->p, x);
     for (size_t m = 0; m < w->c.n_points; m++) {
@@ -1174,9 +1191,10 @@ lop_curve_work *lop_curve_work_new(const lop_curve *c, const double *states, siz
     if (curve_by_cells(w) && (!(w->node = malloc(n_states * sizeof *w->node)) ||
                               !(w->poly = malloc(3 * (n_states - 1) * sizeof *w->poly))))
         goto fail;
-    /* continuous tolerance: at most 2·n_states + 1 breaks, then the breaks and up to two
-     * stationary points between each pair as candidates */
-    size_t n_breaks = 2 * n_states + 1;
+    /* continuous tolerance: at most 2·n_states + 1 breaks and two ends of the reachable
+     * estimates, then the breaks and up to two stationary points between each pair as
+     * candidates */
+    size_t n_breaks = 2 * n_states + 3;
     if (w->continuous && c->kind == LOP_CURVE_TOLERANCE &&
         (!(w->cand = malloc(4 * n_breaks * sizeof *w->cand)) ||
          !(w->cand_el = malloc(3 * n_breaks * sizeof *w->cand_el))))

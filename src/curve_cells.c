@@ -1,5 +1,5 @@
 /* The continuous density of a grid posterior (density.h) under absolute, linlin and
- * tolerance curves: a quadratic in each interval between neighbouring states with the
+ * tolerance curves and points curves of absolute error: a quadratic in each interval between neighbouring states with the
  * interval's mass and the density's values at the states, so the cumulative is a cubic
  * in each interval. Absolute and linlin losses
  * integrate exactly against it (prefix sums to the interval holding x, the rest of that
@@ -22,6 +22,12 @@
 #include "lopside/density.h"
 #include "lopside/interp.h"
 
+/* Masses below this fraction of the largest are left out of the density: together at
+ * most n·1e-30 of the posterior, so even a loss 1e15 times the problem's scale away
+ * changes an expected loss by less than 1e-15 of that scale for any grid that fits in
+ * memory. */
+#define CELLS_NEGLIGIBLE 1e-30
+
 /* No piece: u lies outside [s_0, s_{n-1}], where the density is 0. */
 #define OUTSIDE SIZE_MAX
 
@@ -30,7 +36,8 @@ bool curve_by_cells(const lop_curve_work *w)
     if (!w->cells)
         return false;
     lop_curve_kind k = w->c.kind;
-    return k == LOP_CURVE_ABSOLUTE || k == LOP_CURVE_LINLIN || k == LOP_CURVE_TOLERANCE;
+    return k == LOP_CURVE_ABSOLUTE || k == LOP_CURVE_LINLIN || k == LOP_CURVE_TOLERANCE ||
+           (k == LOP_CURVE_POINTS && !w->c.relative);
 }
 
 /* Returns the factor of the weight the curve integrates: 1/s for relative absolute and
@@ -45,8 +52,14 @@ void cells_prepare(lop_curve_work *w, bool moments)
     size_t n = w->n_states;
     lop_density_nodes(w->s, w->p, weight_factor(w), n, w->node);
     /* Pieces that read no mass are 0: only the stretch around the posterior's mass is
-     * built (a narrow posterior on a wide grid has most of its masses exactly 0). */
-    size_t first = lop_density_first_piece(w->p, n), last = lop_density_last_piece(w->p, n);
+     * built (a narrow posterior on a wide grid has most of its masses 0 or far below
+     * anything a loss can notice). */
+    double largest = 0;
+    for (size_t i = 0; i < n; i++)
+        largest = w->p[i] > largest ? w->p[i] : largest;
+    double negligible = CELLS_NEGLIGIBLE * largest;
+    size_t first = lop_density_first_piece(w->p, n, negligible);
+    size_t last = lop_density_last_piece(w->p, n, negligible);
     double *cum = w->pre[0], *mom = moments ? w->pre[1] : NULL;
     cum[0] = 0;
     if (mom)
@@ -112,11 +125,13 @@ static double cumulative(const lop_curve_work *w, double u)
     return cumulative_in(w, locate(w, u, &hint), u);
 }
 
-/* Writes the weight W(x) and moment V(x) about m1 of the density below x. */
-static void below(const lop_curve_work *w, double x, double *weight, double *moment)
+/* Writes the weight W(x) and moment V(x) about m1 of the density below x, looking for
+ * x's piece from *hint (see locate). */
+static void below_from(const lop_curve_work *w, double x, size_t *hint, double *weight,
+                       double *moment)
 {
-    size_t n = w->n_states, hint = OUTSIDE;
-    size_t k = locate(w, x, &hint);
+    size_t n = w->n_states;
+    size_t k = locate(w, x, hint);
     if (k == OUTSIDE) {
         bool above = x > w->s[n - 1];
         *weight = above ? w->pre[0][n - 1] : 0;
@@ -127,6 +142,13 @@ static void below(const lop_curve_work *w, double x, double *weight, double *mom
     double h = w->s[k + 1] - w->s[k], t = (x - w->s[k]) / h, in = lop_density_mass(a, t);
     *weight = w->pre[0][k] + h * in;
     *moment = w->pre[1][k] + h * ((w->s[k] - w->center) * in + h * lop_density_moment(a, t));
+}
+
+/* Writes the weight W(x) and moment V(x) about m1 of the density below x. */
+static void below(const lop_curve_work *w, double x, double *weight, double *moment)
+{
+    size_t hint = OUTSIDE;
+    below_from(w, x, &hint, weight, moment);
 }
 
 /* over·E[c·(x - u); u < x] + under·E[c·(u - x); u > x] with y = x - m1:
@@ -217,6 +239,60 @@ double cells_window(const lop_curve_work *w, double x)
     return cumulative(w, b) - cumulative(w, a);
 }
 
+/* A points curve in the state u at estimate x: the error x - u passes knot m at u_m = x -
+ * e_m, decreasing in m. Between u_{m+1} and u_m the loss is v_m + slope_m·(x - u - e_m),
+ * beyond the last knot's u it is the last value, beyond the first's the first value. */
+
+double cells_points_at(const lop_curve_work *w, double x, size_t *hints)
+{
+    const double *e = w->c.error, *v = w->c.value;
+    size_t last = w->c.n_points - 1, n = w->n_states;
+    double y = x - w->center, total = w->pre[0][n - 1];
+    double w_hi, m_hi, w_lo, m_lo;              /* W, V at u_m and at u_{m+1} */
+    below_from(w, x - e[last], &hints[last], &w_lo, &m_lo);
+    double sum = v[last] * w_lo;
+    for (size_t m = last; m-- > 0;) {
+        below_from(w, x - e[m], &hints[m], &w_hi, &m_hi);
+        double mass = w_hi - w_lo;
+        sum += (v[m] + w->slope[m] * (y - e[m])) * mass - w->slope[m] * (m_hi - m_lo);
+        w_lo = w_hi;
+        m_lo = m_hi;
+    }
+    return sum + v[0] * (total - w_lo);
+}
+
+/* Returns the integral over piece k (from lo, width h) against its density a of the
+ * loss A + B·u for u between lo + h·ta and lo + h·tb (clipped to the piece). */
+static double piece_linear(double lo, double h, const double a[3], double ta, double tb,
+                           double A, double B)
+{
+    ta = fmax(ta, 0);
+    tb = fmin(tb, 1);
+    if (!(tb > ta))
+        return 0;
+    double dm = lop_density_mass(a, tb) - lop_density_mass(a, ta);
+    double dmom = lop_density_moment(a, tb) - lop_density_moment(a, ta);
+    return h * ((A + B * lo) * dm + B * h * dmom);
+}
+
+/* Returns the integral of a points curve's loss at x over piece k against a, segment by
+ * segment of the curve (see cells_points_at). */
+static double piece_points(const lop_curve_work *w, double x, size_t k, const double a[3])
+{
+    const double *e = w->c.error, *v = w->c.value;
+    size_t last = w->c.n_points - 1;
+    double lo = w->s[k], h = w->s[k + 1] - lo;
+    double t_last = (x - e[last] - lo) / h, t_first = (x - e[0] - lo) / h;
+    double sum = piece_linear(lo, h, a, -INFINITY, t_last, v[last], 0) +
+                 piece_linear(lo, h, a, t_first, INFINITY, v[0], 0);
+    for (size_t m = 0; m < last; m++) {
+        double slope = (v[m + 1] - v[m]) / (e[m + 1] - e[m]);
+        sum += piece_linear(lo, h, a, (x - e[m + 1] - lo) / h, (x - e[m] - lo) / h,
+                            v[m] + slope * (x - e[m]), -slope);
+    }
+    return sum;
+}
+
 /* Returns the integral of loss(x, u) over piece k against the piece a: over·(x - u)
  * below x and under·(u - x) above it for linlin and absolute, inside or outside for
  * tolerance. */
@@ -224,6 +300,8 @@ static double piece_loss(const lop_curve_work *w, double x, size_t k, const doub
 {
     const lop_curve *c = &w->c;
     double lo = w->s[k], h = w->s[k + 1] - lo, whole = lop_density_mass(a, 1);
+    if (c->kind == LOP_CURVE_POINTS)
+        return piece_points(w, x, k, a);
     if (c->kind == LOP_CURVE_TOLERANCE) {
         band_end e_lo, e_hi;
         band_ends(c, x, &e_lo, &e_hi);
@@ -421,6 +499,52 @@ static size_t piece_stationary(lop_curve_work *w, double a, double b, size_t *hi
     return found;
 }
 
+/* Returns the state u at which the weight below reaches goal (within [s_0, s_{n-1}]). */
+static double weight_quantile(const lop_curve_work *w, double goal)
+{
+    double total = w->pre[0][w->n_states - 1];
+    goal = fmin(fmax(goal, 0), total);
+    return cells_linlin_bayes(w, goal, total - goal);
+}
+
+/* Narrows the search for the best window when more mass in the window is better (an
+ * absolute band, inside < outside). The window centred on the median holds mass M; a
+ * window at x holds at most W(x + below) and at most total - W(x - above), so no x
+ * outside [Q(T) - below, Q(total - T) + above] can hold T = M - 4·tie/(outside - inside)
+ * or more, and every such x loses by more than four ties: it neither wins nor joins the
+ * winner's tie. Writes those ends to *xlo and *xhi and narrows [*first, *last] to the
+ * states whose breaks can fall between them; leaves everything as it is when T <= 0. */
+static void reachable_estimates(const lop_curve_work *w, size_t *first, size_t *last,
+                                double *xlo, double *xhi)
+{
+    const lop_curve *c = &w->c;
+    double total = w->pre[0][w->n_states - 1];
+    double median = weight_quantile(w, 0.5 * total);
+    double held = cells_window(w, median + 0.5 * (c->above - c->below));
+    double scale = fmax(fabs(c->inside), fabs(c->outside)) * w->mass;
+    double tie = CURVE_TIE_RELATIVE * (scale > 0 ? scale : 1);
+    double enough = held - 4 * tie / (c->outside - c->inside);
+    if (!(enough > 0) || !(held <= total))
+        return;
+    double lo = weight_quantile(w, enough) - c->below;
+    double hi = weight_quantile(w, total - enough) + c->above;
+    if (!(lo < hi))
+        return;
+    /* a break v + above or v - below lies in [lo, hi] only for v in [lo - above, hi + below] */
+    size_t a = lop_count_at_most(w->s, w->n_states, lo - c->above);
+    size_t b = lop_count_at_most(w->s, w->n_states, hi + c->below);
+    a = a > 0 ? a - 1 : 0;
+    b = b < w->n_states ? b : w->n_states - 1;
+    a = a > *first ? a : *first;
+    b = b < *last ? b : *last;
+    if (a > b)
+        return;
+    *first = a;
+    *last = b;
+    *xlo = lo;
+    *xhi = hi;
+}
+
 /* Over cells: the window's mass is a cubic in x between breaks, so its extremes are at
  * the breaks or at the roots of its quadratic slope. When a larger window is better
  * (inside < outside) only the breaks of the states from the one before the first with
@@ -440,7 +564,20 @@ static double cells_tolerance_bayes(lop_curve_work *w, double *el)
         first = first > 0 ? first - 1 : 0;
         last = last + 1 < n ? last + 1 : n - 1;
     }
+    double xlo = -INFINITY, xhi = INFINITY;
+    if (w->c.inside < w->c.outside && !w->c.relative)
+        reachable_estimates(w, &first, &last, &xlo, &xhi);
     size_t m = breaks(w, w->s + first, last - first + 1);
+    if (xlo > -INFINITY) {
+        /* only the breaks strictly inside (xlo, xhi), with xlo and xhi as the ends */
+        size_t kept = 0;
+        w->cand[kept++] = xlo;
+        for (size_t k = 0; k < m; k++)
+            if (w->cand[k] > xlo && w->cand[k] < xhi)
+                w->cand[kept++] = w->cand[k];
+        w->cand[kept++] = xhi;
+        m = kept;
+    }
     double *x = w->cand + m, *v = w->cand_el;
     size_t count = 0, hint_lo = OUTSIDE, hint_hi = OUTSIDE;
     for (size_t k = 0; k < m; k++) {

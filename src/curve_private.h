@@ -59,7 +59,7 @@ double curve_tolerance_el(const lop_curve_work *w, double in);
  * cumulative posterior), by the tests of lop_curve_loss. */
 double curve_points_window(const lop_curve_work *w, double x);
 
-/* Over cells (absolute, linlin, tolerance), once w->p and w->center are set: writes the
+/* Over cells (absolute, linlin, tolerance, points), once w->p and w->center are set: writes the
  * density's pieces of the weight (p, or p/s for relative absolute and linlin) to w->poly,
  * pre[0][k] = the weight below state k and, with moments, pre[1][k] = the moment about
  * m1 below it. */
@@ -71,6 +71,11 @@ double cells_linlin_at(const lop_curve_work *w, double x, double under, double o
 /* Returns the minimizer of the density's linlin loss: the quantile under/(under + over)
  * of the weight; the middle of the interval of minimizers when it is flat. */
 double cells_linlin_bayes(const lop_curve_work *w, double under, double over);
+
+/* Returns the expected loss of a points curve at x over the density (after
+ * cells_prepare with moments), finding each knot's piece from hints[knot] (OUTSIDE,
+ * i.e. SIZE_MAX, to search afresh; estimates taken in increasing order walk forward). */
+double cells_points_at(const lop_curve_work *w, double x, size_t *hints);
 
 /* Returns the posterior mass of the tolerance band at x over the density (after
  * cells_prepare). */

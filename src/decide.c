@@ -36,6 +36,34 @@ bool lop_decide_tied(double el_a, double el_best, double scale)
     return fabs(el_a - el_best) <= TIE_RELATIVE * (scale > 0 ? scale : 1);
 }
 
+/* Returns the sign of el_a - el_b computed from the log weights (see decide.h). */
+static int exact_sign(const lop_problem *p, const double *logw, size_t a, size_t b)
+{
+    const double *ra = &p->loss[a * p->n_states], *rb = &p->loss[b * p->n_states];
+    double top = -INFINITY;
+    for (size_t s = 0; s < p->n_states; s++)
+        if (ra[s] != rb[s] && logw[s] > top)
+            top = logw[s];
+    if (top == -INFINITY)
+        return 0;
+    double sum = 0;
+    for (size_t s = 0; s < p->n_states; s++)
+        if (ra[s] != rb[s] && logw[s] > -INFINITY)
+            sum += (ra[s] - rb[s]) * exp(logw[s] - top);
+    return (sum > 0) - (sum < 0);
+}
+
+size_t lop_decide_best_exact(const lop_problem *p, const double *logw, const double *el,
+                             double scale)
+{
+    size_t best = lop_decide_best(el, p->n_actions), first = best;
+    for (size_t a = 0; a < p->n_actions; a++)
+        if (a != first && lop_decide_tied(el[a], el[first], scale) &&
+            exact_sign(p, logw, a, best) < 0)
+            best = a;
+    return best;
+}
+
 double lop_decide_loss_scale(const lop_problem *p)
 {
     double scale = 0;

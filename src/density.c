@@ -82,7 +82,8 @@ static double right_part(const lop_density_sweep *w, size_t j)
     double l = 0.5 * (s[j] - s[j - 1]), r = 0.5 * (s[j + 1] - s[j]);
     double slope = (val[RING(j + 1)] - val[RING(j - 1)]) / (s[j + 1] - s[j - 1]);
     double part = v * r + 0.5 * r * l * slope;     /* m·r/(l + r) = v·r */
-    return fmin(fmax(part, 0), v * (l + r));
+    double whole = v * (l + r);
+    return part > 0 ? (part < whole ? part : whole) : 0;
 }
 
 /* Returns the density's value at state j: the cell's average corrected to the point,
@@ -107,11 +108,13 @@ static double node_value(const lop_density_sweep *w, size_t j, double left_mean,
         double bend = 2 * (right - left) / (s[j + 1] - s[j - 1]);
         v -= 0.5 * (r - l) * slope + (r * r - r * l + l * l) / 6 * bend;
     }
-    v = fmax(v, 0);
-    if (!isnan(left_mean))
-        v = fmin(v, 3 * left_mean);
-    if (!isnan(right_mean))
-        v = fmin(v, 3 * right_mean);
+    /* comparisons, not fmin and fmax: this runs once per state of every posterior, and
+     * those are calls into libm */
+    v = v > 0 ? v : 0;
+    if (!isnan(left_mean) && !(v <= 3 * left_mean))
+        v = 3 * left_mean;
+    if (!isnan(right_mean) && !(v <= 3 * right_mean))
+        v = 3 * right_mean;
     return v;
 }
 
@@ -157,20 +160,20 @@ void lop_density_sweep_piece(lop_density_sweep *w, size_t k, double a[3])
     a[2] = -6 * beta;
 }
 
-size_t lop_density_first_piece(const double *p, size_t n)
+size_t lop_density_first_piece(const double *p, size_t n, double negligible)
 {
     size_t i = 0;
-    while (i < n && p[i] == 0)
+    while (i < n && p[i] <= negligible)
         i++;
     /* Before the first mass the intervals hold none, so their values, capped at three
      * times the mean density beside them, are 0 too. */
     return i > 0 && i < n ? i - 1 : 0;
 }
 
-size_t lop_density_last_piece(const double *p, size_t n)
+size_t lop_density_last_piece(const double *p, size_t n, double negligible)
 {
     size_t i = n;
-    while (i > 0 && p[i - 1] == 0)
+    while (i > 0 && p[i - 1] <= negligible)
         i--;
     if (i == 0)
         return n - 2;
@@ -183,21 +186,6 @@ void lop_density_piece_of(const double *s, const double *p, const double *factor
     lop_density_sweep w;
     lop_density_sweep_start(&w, s, p, factor, NULL, n, k);
     lop_density_sweep_piece(&w, k, a);
-}
-
-double lop_density_mass(const double a[3], double t)
-{
-    return t * (a[0] + t * (a[1] / 2 + t * a[2] / 3));
-}
-
-double lop_density_moment(const double a[3], double t)
-{
-    return t * t * (a[0] / 2 + t * (a[1] / 3 + t * a[2] / 4));
-}
-
-double lop_density_at(const double a[3], double t)
-{
-    return a[0] + t * (a[1] + t * a[2]);
 }
 
 double lop_density_invert(const double a[3], double goal)
@@ -239,7 +227,7 @@ void lop_density_quantiles(const double *s, const double *p, size_t n, const dou
     /* the pieces' total, sum p up to rounding: the quantiles are of it */
     lop_density_sweep w;
     double total = 0, a[3];
-    size_t first = lop_density_first_piece(p, n);
+    size_t first = lop_density_first_piece(p, n, 0);
     lop_density_sweep_start(&w, s, p, NULL, NULL, n, first);
     for (size_t k = first; k + 1 < n; k++) {
         lop_density_sweep_piece(&w, k, a);

@@ -97,6 +97,13 @@ static void expected_at(void *ctx, double x, double *el)
     lop_decide_expected(p, v->post, el);
 }
 
+/* The best action at the point expected_at last saw, ties told apart exactly. */
+static size_t best_at(void *ctx, const double *el)
+{
+    numeric_view *v = ctx;
+    return lop_decide_best_exact(v->p, v->logw, el, v->search.loss_scale);
+}
+
 static void measurement_grid(const lop_problem *p, const lop_channel *c, double *grid,
                              size_t m)
 {
@@ -397,7 +404,8 @@ static lop_status solve_table_and_gaussian(const lop_problem *p, lop_results *r,
         goto no_memory;
 
     numeric_view view = {p, numeric, row_logw, logw, post,
-                         {expected_at, NULL, p->n_actions, lop_decide_loss_scale(p), row_el}};
+                         {expected_at, best_at, NULL, p->n_actions, lop_decide_loss_scale(p),
+                          row_el}};
     view.search.ctx = &view;
     rule->bayes_risk = 0;
     for (size_t row = 0; row < rule->n_rows; row++) {

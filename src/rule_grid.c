@@ -63,6 +63,7 @@ typedef struct {
     lop_evidence_kernel kern;
     believed_view *believed;          /* per rule; bp NULL when not a believed rule */
     double **rule_loss;               /* per rule: its posterior expected loss per point */
+    double loss_scale;                /* choices: for ties (lop_decide_loss_scale) */
 } grid_job;
 
 static void thread_work_free(thread_work *t, size_t n_rules)
@@ -230,7 +231,7 @@ static void solve_point(const grid_job *job, thread_work *t, lop_results *r, siz
         rule->grid_loss[m] = loss;
     } else {
         lop_decide_expected(p, t->post, t->el);
-        size_t a = lop_decide_best(t->el, p->n_actions);
+        size_t a = lop_decide_best_exact(p, t->logw, t->el, job->loss_scale);
         rule->grid_action[m] = a;
         rule->grid_loss[m] = t->el[a];
     }
@@ -354,6 +355,13 @@ static void expected_at(void *param, double x, double *el)
     lop_decide_expected(ctx->job->p, ctx->t->post, el);
 }
 
+/* The best action at the point expected_at last saw, ties told apart exactly. */
+static size_t best_at(void *param, const double *el)
+{
+    switch_ctx *ctx = param;
+    return lop_decide_best_exact(ctx->job->p, ctx->t->logw, el, ctx->job->loss_scale);
+}
+
 /* The measurements beyond the grid out to where no state has mass left (FAR_TAIL_SDS
  * sds of the widest state), where unequal spreads can still turn the decision. */
 static void far_ends(const lop_problem *p, const lop_channel *c, const lop_rule_result *rule,
@@ -379,8 +387,8 @@ static void far_ends(const lop_problem *p, const lop_channel *c, const lop_rule_
 static int find_switches(const grid_job *job, thread_work *t, lop_rule_result *rule)
 {
     switch_ctx ctx = {job, t};
-    lop_switch_search search = {expected_at, &ctx, job->p->n_actions,
-                                lop_decide_loss_scale(job->p), t->el};
+    lop_switch_search search = {expected_at, best_at, &ctx, job->p->n_actions,
+                                job->loss_scale, t->el};
     lop_switch_list list = {0};
     size_t m_last = rule->n_grid - 1;
     double far_lo = 0, far_hi = 0;
@@ -466,6 +474,7 @@ lop_status lop_rule_solve_grid(const lop_problem *p, lop_results *r, lop_error *
         st = lop_error_run(err, "out of memory");
         goto done;
     }
+    job.loss_scale = p->estimate ? 0 : lop_decide_loss_scale(p);
     job.channel = numeric_channel(p);
     job.c = &p->channels[job.channel];
     rule->numeric_channel = (long)job.channel;

@@ -37,6 +37,8 @@ typedef struct {
  * measurement x, written to el (n_actions, scratch owned by the caller). */
 typedef struct {
     void (*expected)(void *ctx, double x, double *el);
+    /* the best action given the el just written (NULL: lop_decide_best) */
+    size_t (*best)(void *ctx, const double *el);
     void *ctx;
     size_t n_actions;
     double loss_scale;        /* for tie tests */

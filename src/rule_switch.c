@@ -67,12 +67,18 @@ static double refine(lop_switch_search *s, size_t a, size_t b, double lo, double
     return root;
 }
 
+/* Returns the best action at the point whose expected losses s->el holds. */
+static size_t best_of(const lop_switch_search *s)
+{
+    return s->best ? s->best(s->ctx, s->el) : lop_decide_best(s->el, s->n_actions);
+}
+
 static int find(lop_switch_search *s, double lo, double hi, size_t a, size_t b, size_t row,
                 lop_switch_list *out, size_t depth)
 {
     double x = refine(s, a, b, lo, hi);
     s->expected(s->ctx, x, s->el);
-    size_t c = lop_decide_best(s->el, s->n_actions);
+    size_t c = best_of(s);
     if (c == a || c == b || depth > s->n_actions ||
         lop_decide_tied(s->el[c], s->el[a], s->loss_scale))
         return lop_switch_push(out, x, a, b, row);
@@ -90,5 +96,5 @@ int lop_switch_find(lop_switch_search *s, double lo, double hi, size_t a, size_t
 size_t lop_switch_best(lop_switch_search *s, double x)
 {
     s->expected(s->ctx, x, s->el);
-    return lop_decide_best(s->el, s->n_actions);
+    return best_of(s);
 }

@@ -44,7 +44,7 @@ run_suite "value, sweeps and designs (tests/reference/check_studies.py)" "$PYTHO
 run_suite "simulation against scipy (tests/reference)" "$PYTHON" tests/reference/check_simulation.py
 run_suite "scipy references, grids (tests/reference)" "$PYTHON" tests/reference/check_grid.py
 run_suite "continuous model, no grid (tests/reference/check_continuous.py)" "$PYTHON" \
-    tests/reference/check_continuous.py --random 30 --seed 1
+    tests/reference/check_continuous.py --random 200 --seed 1
 run_suite "workbook and CSV read back (openpyxl, csv)" "$PYTHON" tests/reference/check_workbook.py
 
 echo

@@ -19,6 +19,14 @@ size_t lop_decide_best(const double *el, size_t n_actions);
 /* Returns true when el_a and el_best are equal up to rounding of losses of size scale. */
 bool lop_decide_tied(double el_a, double el_best, double scale);
 
+/* Returns the best action as lop_decide_best does, except that actions tied with it (to
+ * the scale) are told apart by the exact sign of their difference, summed from the log
+ * weights logw (n_states, unnormalized) relative to the largest weight of the states
+ * where their losses differ: far in a posterior's tail the expected losses can tie or
+ * underflow while the continuous model still prefers one action. */
+size_t lop_decide_best_exact(const lop_problem *p, const double *logw, const double *el,
+                             double scale);
+
 /* Returns the largest absolute loss of p: the scale for tie tests. */
 double lop_decide_loss_scale(const lop_problem *p);
 

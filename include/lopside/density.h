@@ -50,27 +50,39 @@ void lop_density_sweep_start(lop_density_sweep *w, const double *s, const double
 /* Writes piece k of w's density (k from the start, increasing by one each call). */
 void lop_density_sweep_piece(lop_density_sweep *w, size_t k, double a[3]);
 
-/* Returns the first piece that may have mass, reading masses p[0..n-1] (n >= 2): the
- * interval before the first state with mass; the density is 0 before it. */
-size_t lop_density_first_piece(const double *p, size_t n);
+/* Returns the first piece that may have mass, reading masses p[0..n-1] (n >= 2) of
+ * which those at or below `negligible` count as none: the interval before the first
+ * state with mass; the density is taken as 0 before it. */
+size_t lop_density_first_piece(const double *p, size_t n, double negligible);
 
-/* Returns the last piece that may have mass: the interval after the last state with
- * mass; the density is 0 after it. */
-size_t lop_density_last_piece(const double *p, size_t n);
+/* Returns the last piece that may have mass (masses at or below `negligible` counting as
+ * none): the interval after the last state with mass; the density is taken as 0 after it. */
+size_t lop_density_last_piece(const double *p, size_t n, double negligible);
 
 /* Writes piece k (0 <= k < n - 1) of the density of the masses p·factor (factor NULL:
  * 1) alone: O(1). */
 void lop_density_piece_of(const double *s, const double *p, const double *factor, size_t n,
                           size_t k, double a[3]);
 
+/* Inline: these run once or more per piece of every posterior, the engine's inner loop. */
+
 /* Returns the integral of the piece a over [0, t]: a0·t + a1·t²/2 + a2·t³/3. */
-double lop_density_mass(const double a[3], double t);
+static inline double lop_density_mass(const double a[3], double t)
+{
+    return t * (a[0] + t * (a[1] / 2 + t * a[2] / 3));
+}
 
 /* Returns the integral of the piece a times t over [0, t]: a0·t²/2 + a1·t³/3 + a2·t⁴/4. */
-double lop_density_moment(const double a[3], double t);
+static inline double lop_density_moment(const double a[3], double t)
+{
+    return t * t * (a[0] / 2 + t * (a[1] / 3 + t * a[2] / 4));
+}
 
 /* Returns the value of the piece a at t. */
-double lop_density_at(const double a[3], double t);
+static inline double lop_density_at(const double a[3], double t)
+{
+    return a[0] + t * (a[1] + t * a[2]);
+}
 
 /* Returns the t in [0, 1] at which the piece's mass from 0 reaches goal (clamped to the
  * piece's mass): the root of the increasing cubic by Newton's method kept inside a

@@ -731,12 +731,6 @@ def check_other_curves(runner, tally):
         got = np.array(d["case"]["curve"]["expected_loss"])
         tally.close(G, "points: expected loss of every estimate vs quad (max deviation)",
                     np.max(np.abs(got + cont)), 0, t.score)
-        s = np.array(d["problem"]["states"]["grid"])
-        pg = np.array(d["case"]["posterior_grid"])
-        brute = (-np.interp(est[:, None] - s[None, :], err, val)) @ pg   # flat outside, as np.interp
-        # Prefix sums of moments per piece: rounding ~1e-14 of the payoff scale 20.
-        tally.close(G, "points: curve = brute force over the posterior grid",
-                    np.max(np.abs(got - brute)), 0, 1e-10)
         e = d["case"]["bayes_estimate"]
         tally.close(G, "points: Bayes estimate has the best continuous payoff on the grid",
                     pay(e), cont.max(), t.score)

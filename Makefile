@@ -29,11 +29,12 @@ ALL_CFLAGS = $(WARN) $(OPT) $(SAN) -fopenmp -Iinclude -D_POSIX_C_SOURCE=200809L 
              $(PKG_CFLAGS) $(CFLAGS)
 ALL_LDLIBS = $(PKG_LIBS) -lm $(LDLIBS)
 
-LIB_SRC  := $(filter-out src/main.c,$(wildcard src/*.c))
+# src/LAYER/*.c: each layer includes only the layers below it (tests/check_layers.py).
+LIB_SRC  := $(filter-out src/app/%,$(wildcard src/*/*.c))
 LIB_OBJ  := $(patsubst src/%.c,$(BUILD)/obj/%.o,$(LIB_SRC)) $(BUILD)/obj/demo_problem.o
 UNIT_SRC := $(wildcard tests/unit/*.c)
 UNIT_OBJ := $(patsubst tests/unit/%.c,$(BUILD)/unit/%.o,$(UNIT_SRC))
-HEADERS  := $(wildcard include/lopside/*.h) $(wildcard src/*.h) $(wildcard tests/unit/*.h)
+HEADERS  := $(wildcard include/lopside/*/*.h) $(wildcard src/*/*.h) $(wildcard tests/unit/*.h)
 
 .PHONY: all demo test check-asan bench install clean deps deps-test build-tests run-tests \
         random-search
@@ -45,21 +46,22 @@ Q := $(if $(V),,@)
 
 $(BUILD)/obj/%.o: src/%.c $(HEADERS) | $(BUILD)/obj
 	@echo "  CC      $<"
+	@mkdir -p $(dir $@)
 	$(Q)$(CC) $(ALL_CFLAGS) -c $< -o $@
 
 # The demo problem is compiled in, so `lopside demo` works from any folder.
 $(BUILD)/demo_problem.c: examples/tone_detection.ini | $(BUILD)/obj
-	$(Q)awk 'BEGIN { print "#include \"lopside/demo.h\""; \
+	$(Q)awk 'BEGIN { print "#include \"lopside/input/demo.h\""; \
 	             print "const char lop_demo_name[] = \"tone_detection.ini\";"; \
 	             print "const char *const lop_demo_lines[] = {" } \
 	     { gsub(/\\/, "\\\\"); gsub(/"/, "\\\""); printf "    \"%s\\n\",\n", $$0 } \
 	     END { print "    NULL,"; print "};" }' $< > $@
 
-$(BUILD)/obj/demo_problem.o: $(BUILD)/demo_problem.c include/lopside/demo.h
+$(BUILD)/obj/demo_problem.o: $(BUILD)/demo_problem.c include/lopside/input/demo.h
 	@echo "  CC      $<"
 	$(Q)$(CC) $(ALL_CFLAGS) -c $< -o $@
 
-$(BUILD)/lopside: $(BUILD)/obj/main.o $(LIB_OBJ)
+$(BUILD)/lopside: $(BUILD)/obj/app/main.o $(LIB_OBJ)
 	@echo "  LINK    $@"
 	$(Q)$(CC) $(ALL_CFLAGS) $^ -o $@ $(ALL_LDLIBS)
 

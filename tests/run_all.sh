@@ -35,6 +35,7 @@ run_suite() {
     total_fail=$((total_fail + fail))
 }
 
+run_suite "layers: includes run one way (tests/check_layers.py)" "$PYTHON" tests/check_layers.py
 run_suite "unit tests (Check)" "$UNIT_TESTS"
 run_suite "input catalogue (tests/cases)" sh tests/run_cases.sh
 run_suite "examples" sh tests/run_examples.sh

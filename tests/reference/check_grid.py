@@ -627,7 +627,7 @@ def check_tolerance(runner, tally):
     got = np.array(d["case"]["curve"]["expected_loss"])
     tally.close(G, "bimodal: expected loss of every estimate (mixture posterior, max deviation)",
                 np.max(np.abs(got - cont)), 0, t.score)
-    # The curve is read from the posterior as a continuous density (src/density.c), whose
+    # The curve is read from the posterior as a continuous density (src/model/density.c), whose
     # convergence the unit tests check against closed forms; the comparison above with the
     # mixture's continuous expected loss is the check of the whole.
     e = d["case"]["bayes_estimate"]

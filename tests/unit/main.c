@@ -31,7 +31,7 @@ lop_status test_problem_error(const char *text, lop_error *err)
 lop_results *test_solve(const lop_problem *p)
 {
     lop_error err = {0};
-    lop_results *r = lop_engine_solve(p, &err);
+    lop_results *r = lop_run_solve(p, NULL, &err);
     ck_assert_msg(r != NULL, "solve failed: %s", err.message);
     return r;
 }

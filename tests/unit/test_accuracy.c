@@ -1,7 +1,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 
-#include "lopside/accuracy.h"
+#include "lopside/studies/accuracy.h"
 #include "testutil.h"
 
 /* A normal prior N(0, 10^2) on a grid of 1281 points over +/-8 sd (the truncation

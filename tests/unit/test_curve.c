@@ -4,8 +4,8 @@
 #include <gsl/gsl_math.h>
 #include <gsl/gsl_rng.h>
 
-#include "lopside/curve.h"
-#include "lopside/density.h"
+#include "lopside/model/curve.h"
+#include "lopside/model/density.h"
 #include "testutil.h"
 
 /* ---- helpers ---------------------------------------------------------------------- */

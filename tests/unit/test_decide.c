@@ -1,6 +1,6 @@
 #include <gsl/gsl_errno.h>
 
-#include "lopside/decide.h"
+#include "lopside/engine/decide.h"
 #include "testutil.h"
 
 /* Screening with 1% prevalence, 80% sensitivity and a 9.6% false-positive rate:
@@ -76,7 +76,7 @@ START_TEST(an_unbounded_expected_loss_is_an_input_error)
         "[prior]\nfamily = uniform\n[actions]\nestimate = yes\n[loss]\ncurve = linex\n"
         "a = 3\nrelative = yes\n");
     lop_error err = {0};
-    lop_results *r = lop_engine_solve(p, &err);
+    lop_results *r = lop_run_solve(p, NULL, &err);
     ck_assert_ptr_null(r);
     ck_assert_int_eq(err.status, LOP_EINPUT);
     ck_assert_int_eq(err.line, 12);

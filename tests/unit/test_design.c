@@ -4,7 +4,7 @@
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_randist.h>
 
-#include "lopside/design.h"
+#include "lopside/studies/design.h"
 #include "testutil.h"
 
 /* The detection problem of the sweep tests: P(signal) = 0.3, d' = 1.5, payoffs

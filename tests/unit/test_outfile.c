@@ -2,8 +2,8 @@
 #include <stdlib.h>
 #include <unistd.h>
 
-#include "lopside/outfile.h"
-#include "lopside/strutil.h"
+#include "lopside/util/outfile.h"
+#include "lopside/util/strutil.h"
 #include "testutil.h"
 
 START_TEST(commit_replaces_and_abandon_keeps_the_old_file)

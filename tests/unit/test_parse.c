@@ -1,6 +1,6 @@
 #include <stdlib.h>
 
-#include "lopside/parse.h"
+#include "lopside/input/parse.h"
 #include "testutil.h"
 
 /* Parses one number from `value` as the entry [s] k on line 7. */

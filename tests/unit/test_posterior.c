@@ -1,4 +1,4 @@
-#include "lopside/posterior.h"
+#include "lopside/model/posterior.h"
 #include "testutil.h"
 
 START_TEST(log_sum_exp_survives_huge_log_weights)

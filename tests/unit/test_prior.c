@@ -7,7 +7,7 @@
 #include <gsl/gsl_interp.h>
 #include <gsl/gsl_randist.h>
 
-#include "lopside/prior.h"
+#include "lopside/model/prior.h"
 #include "testutil.h"
 
 #define MAX_POINTS 128

@@ -3,7 +3,7 @@
 
 #include <gsl/gsl_cdf.h>
 
-#include "lopside/rule.h"
+#include "lopside/engine/rule.h"
 #include "testutil.h"
 
 /* An equal-variance yes/no detection problem (noise N(0,1), signal N(d',1)). */

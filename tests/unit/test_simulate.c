@@ -2,12 +2,12 @@
 #include <stdio.h>
 #include <stdlib.h>
 
-#include "lopside/interp.h"
-#include "lopside/simulate.h"
+#include "lopside/util/interp.h"
+#include "lopside/studies/simulate.h"
 #include "testutil.h"
 /* The deciders and the trial drawer are private to the simulation; their lookups are
  * what these tests pin down. */
-#include "../../src/simulate_private.h"
+#include "../../src/studies/simulate_private.h"
 
 /* Two table channels (3 outcomes × 3 repeats, 2 outcomes × 2 repeats) and a gaussian
  * channel whose sd differs between states, so most rows have two switch points. */

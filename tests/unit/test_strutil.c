@@ -1,4 +1,4 @@
-#include "lopside/strutil.h"
+#include "lopside/util/strutil.h"
 #include "testutil.h"
 
 START_TEST(utf8_accepts_text_and_rejects_garbage)

@@ -4,8 +4,8 @@
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_randist.h>
 
-#include "lopside/flatness.h"
-#include "lopside/sweep.h"
+#include "lopside/engine/flatness.h"
+#include "lopside/studies/sweep.h"
 #include "testutil.h"
 
 /* Equal-variance yes/no detection (noise N(0,1), signal N(d',1)), payoffs V_hit, C_miss,
@@ -233,7 +233,7 @@ START_TEST(sweeps_report_progress)
     step_count count = {0, 0, 0, true};
     lop_progress progress = {count_step, &count};
     lop_error err = {0};
-    lop_results *r = lop_engine_solve_progress(p, &progress, &err);
+    lop_results *r = lop_run_solve(p, &progress, &err);
     ck_assert_ptr_nonnull(r);
     ck_assert_uint_eq(count.calls, 7);
     ck_assert(count.ordered);

@@ -1,8 +1,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 
-#include "lopside/decide.h"
-#include "lopside/value.h"
+#include "lopside/engine/decide.h"
+#include "lopside/studies/value.h"
 #include "testutil.h"
 
 /* A normal prior N(0, tau^2) on a grid, gaussian noise sd sigma with one repeat observed

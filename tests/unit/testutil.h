@@ -6,9 +6,9 @@
 #include <math.h>
 #include <string.h>
 
-#include "lopside/config.h"
-#include "lopside/engine.h"
-#include "lopside/problem.h"
+#include "lopside/input/config.h"
+#include "lopside/model/problem.h"
+#include "lopside/studies/run.h"
 
 /* |got - want| <= tol·max(1, |want|): relative for large values, absolute near zero. */
 #define ck_assert_close(got, want, tol)                                                    \

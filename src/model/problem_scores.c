@@ -6,39 +6,15 @@
 #include <string.h>
 
 #include "lopside/util/interp.h"
+#include "lopside/model/curve_family.h"
 #include "lopside/model/prior.h"
 #include "lopside/input/keys.h"
 #include "problem_build.h"
-
-typedef struct {
-    const char *name;
-    lop_curve_kind kind;
-    bool payoff_allowed;
-    const char *keys[5];   /* the curve's own keys besides `curve` and `relative` */
-} curve_spec;
-
-static const curve_spec curves[] = {
-    {"squared", LOP_CURVE_SQUARED, false, {"scale"}},
-    {"absolute", LOP_CURVE_ABSOLUTE, false, {"scale"}},
-    {"linlin", LOP_CURVE_LINLIN, false, {"under", "over"}},
-    {"quadquad", LOP_CURVE_QUADQUAD, false, {"under", "over"}},
-    {"linex", LOP_CURVE_LINEX, false, {"a", "scale"}},
-    {"tolerance", LOP_CURVE_TOLERANCE, true, {"half_width", "below", "above", "inside", "outside"}},
-    {"points", LOP_CURVE_POINTS, true, {"error", "value"}},
-};
 
 static const char *const curve_keys[] = {"scale", "under", "over", "a", "half_width", "below",
                                          "above", "inside", "outside", "error", "value"};
 
 #define COUNT(x) (sizeof(x) / sizeof(x)[0])
-
-static bool spec_has(const curve_spec *spec, const char *key)
-{
-    for (size_t i = 0; i < COUNT(spec->keys) && spec->keys[i]; i++)
-        if (strcmp(spec->keys[i], key) == 0)
-            return true;
-    return false;
-}
 
 /* Keys of the other modes (rows, cuts, at, curve) are mistakes, not ignored. */
 static lop_status reject_keys(builder *b, const char *section, const char *const *keys,
@@ -286,7 +262,8 @@ static lop_status check_curve_params(builder *b, const char *section)
     return LOP_OK;
 }
 
-static lop_status read_curve_params(builder *b, const char *section, const curve_spec *spec)
+static lop_status read_curve_params(builder *b, const char *section,
+                                    const lop_curve_family *spec)
 {
     lop_problem *p = b->p;
     lop_curve *c = &p->curve;
@@ -352,15 +329,14 @@ static lop_status build_curve(builder *b, const char *section)
         return pb_error(b, pb_section_line(b, section), section, "curve",
                         "missing: estimates need a loss `curve` (squared, absolute, linlin, "
                         "quadquad, linex, tolerance or points)");
-    const curve_spec *spec = NULL;
-    for (size_t i = 0; i < COUNT(curves); i++)
-        if (strcmp(curves[i].name, e->value) == 0)
-            spec = &curves[i];
+    const lop_curve_family *spec = lop_curve_family_named(e->value);
     if (!spec) {
-        char *names[COUNT(curves)];
-        for (size_t i = 0; i < COUNT(curves); i++)
-            names[i] = (char *)curves[i].name;
-        const char *near = pb_nearest(e->value, names, COUNT(curves));
+        size_t n_families;
+        const lop_curve_family *families = lop_curve_families(&n_families);
+        char *names[16];
+        for (size_t i = 0; i < n_families && i < COUNT(names); i++)
+            names[i] = (char *)families[i].name;
+        const char *near = pb_nearest(e->value, names, n_families < COUNT(names) ? n_families : COUNT(names));
         return pb_error(b, e->line, section, "curve",
                         "unknown curve `%s`%s%s%s; known: squared, absolute, linlin, "
                         "quadquad, linex, tolerance, points",
@@ -375,7 +351,7 @@ static lop_status build_curve(builder *b, const char *section)
                         spec->name);
     for (size_t i = 0; i < COUNT(curve_keys); i++) {
         const lop_entry *k = pb_find(b, section, curve_keys[i]);
-        if (k && !spec_has(spec, curve_keys[i]))
+        if (k && !lop_curve_family_has(spec, curve_keys[i]))
             return pb_error(b, k->line, section, k->key, "does not belong to curve `%s`",
                             spec->name);
     }

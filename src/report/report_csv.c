@@ -15,6 +15,7 @@
 #include <strings.h>
 #include <sys/stat.h>
 
+#include "lopside/model/curve_family.h"
 #include "lopside/util/outfile.h"
 #include "lopside/report/report.h"
 #include "report_csv_private.h"
@@ -274,6 +275,9 @@ static void table_summary(csv_set *set)
     summary_text(set, "notes", p->notes, "");
     summary_text(set, "orientation", lop_problem_orientation(p), "");
     if (p->estimate) {
+        char curve[1024];
+        lop_curve_describe(&p->curve, p->payoff ? -1 : 1, curve, sizeof curve);
+        summary_text(set, "curve", curve, "");
         summary_number(set, "bayes_estimate", c->bayes_estimate, p->unit);
         summary_number(set, p->payoff ? "expected_payoff" : "expected_loss",
                        lop_problem_oriented(p, c->bayes_estimate_loss), unit);

@@ -3,6 +3,7 @@
 #include <string.h>
 
 #include "lopside/util/outfile.h"
+#include "lopside/model/curve_family.h"
 #include "lopside/report/report.h"
 #include "report_studies.h"
 
@@ -35,6 +36,33 @@ static json_t *real_array(const double *v, size_t n)
     return arr;
 }
 
+/* The loss or payoff curve of an estimate problem as read: its name, its numbers (scores
+ * in the file's orientation) and, for points, its knots. */
+static json_t *curve_json(const lop_problem *p)
+{
+    const lop_curve *c = &p->curve;
+    const lop_curve_family *f = lop_curve_family_of(c->kind);
+    double sign = p->payoff ? -1 : 1;
+    json_t *obj = json_object();
+    json_object_set_new(obj, "name", json_string(f->name));
+    json_object_set_new(obj, "relative", json_boolean(c->relative));
+    for (size_t i = 0; i < sizeof f->numbers / sizeof f->numbers[0] && f->numbers[i].name; i++) {
+        double v = lop_curve_number_value(c, &f->numbers[i]);
+        json_object_set_new(obj, f->numbers[i].name,
+                            lop_json_number((f->numbers[i].score ? sign * v : v) + 0.0));
+    }
+    if (c->kind == LOP_CURVE_POINTS) {
+        json_t *error = json_array(), *value = json_array();
+        for (size_t i = 0; i < c->n_points; i++) {
+            json_array_append_new(error, lop_json_number(c->error[i]));
+            json_array_append_new(value, lop_json_number(sign * c->value[i] + 0.0));
+        }
+        json_object_set_new(obj, "error", error);
+        json_object_set_new(obj, "value", value);
+    }
+    return obj;
+}
+
 static json_t *problem_json(const lop_problem *p)
 {
     json_t *obj = json_object();
@@ -54,8 +82,10 @@ static json_t *problem_json(const lop_problem *p)
         json_object_set_new(obj, "step", lop_json_number(p->step));
         json_object_set_new(obj, "prior_outside_grid", lop_json_number(p->prior_outside));
     }
-    if (p->estimate)
+    if (p->estimate) {
         json_object_set_new(obj, "estimates", real_array(p->estimates, p->n_estimates));
+        json_object_set_new(obj, "curve", curve_json(p));
+    }
     else
         json_object_set_new(obj, "actions", string_array(p->actions, p->n_actions));
     json_t *channels = json_array();

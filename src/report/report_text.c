@@ -1,6 +1,7 @@
 #include <math.h>
 #include <string.h>
 
+#include "lopside/model/curve_family.h"
 #include "lopside/report/report.h"
 #include "report_studies.h"
 
@@ -569,6 +570,12 @@ void lop_report_problem(FILE *out, const lop_problem *p)
                 p->estimates[p->n_estimates - 1]);
     else if (p->states_kind != LOP_STATES_GRID)
         print_score_table(out, p);
+    if (p->estimate) {
+        char curve[1024];
+        lop_curve_describe(&p->curve, p->payoff ? -1 : 1, curve, sizeof curve);
+        fprintf(out, "  %s curve (error = estimate - state): %s\n", p->payoff ? "payoff" : "loss",
+                curve);
+    }
     fprintf(out, "\n  accuracy asked: %.3g of each number's scale", p->accuracy);
     if (p->refine)
         fprintf(out, " (grids' steps halved %d times before solving)", p->refine);

@@ -22,6 +22,7 @@
 
 #include <xlsxwriter.h>
 
+#include "lopside/model/curve_family.h"
 #include "lopside/util/outfile.h"
 #include "lopside/report/report.h"
 #include "lopside/util/strutil.h"
@@ -447,6 +448,10 @@ static lxw_row_t summary_problem(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t ro
     else
         xw_list_text(list, sizeof list, p->actions, p->n_actions, 12);
     row = summary_line(w, ws, row, "Actions", list);
+    if (p->estimate) {
+        lop_curve_describe(&p->curve, p->payoff ? -1 : 1, text, sizeof text);
+        row = summary_line(w, ws, row, p->payoff ? "Payoff curve" : "Loss curve", text);
+    }
     snprintf(text, sizeof text, "%s in %s: the Bayes action has the %s expected %s",
              lop_problem_orientation(p), xw_score_unit(p), p->payoff ? "largest" : "smallest",
              lop_problem_orientation(p));

@@ -958,6 +958,41 @@ def check_safety(c, tmp):
     c.ok("[output] csv beside the file", os.path.exists(os.path.join(sub, "relcsv", "index.csv")))
 
 
+def check_curve(c, name, j, xlsx, folder, text):
+    """The curve of an estimate problem as understood, against the file itself (read
+    with configparser): its name, numbers in the file's orientation and knots in the JSON,
+    and the same curve named on summary.csv and the workbook's Summary."""
+    if "estimates" not in j["problem"]:
+        return
+    cp = configparser.ConfigParser(inline_comment_prefixes=(";", "#"), comment_prefixes=(";", "#"))
+    cp.read_string(text)
+    sec = "payoff" if cp.has_section("payoff") else "loss"
+    given = dict(cp.items(sec))
+    got = j["problem"].get("curve") or {}
+    c.equal(f"{name}: JSON curve name", got.get("name"), given["curve"])
+    c.equal(f"{name}: JSON curve relative", got.get("relative"), given.get("relative") == "yes")
+    if "half_width" in given:
+        given["below"] = given["above"] = given.pop("half_width")
+    defaults = {"scale": "1", "inside": "0"}
+    expect = {"squared": ["scale"], "absolute": ["scale"], "linlin": ["under", "over"],
+              "quadquad": ["under", "over"], "linex": ["a", "scale"],
+              "tolerance": ["below", "above", "inside", "outside"], "points": []}[given["curve"]]
+    for key in expect:
+        c.close(f"{name}: JSON curve {key}", got.get(key), float(given.get(key, defaults.get(key))))
+    if given["curve"] == "points":
+        for key in ("error", "value"):
+            want = [float(v) for v in given[key].split(",")]
+            c.ok(f"{name}: JSON curve {key}", got.get(key) == want, f"{got.get(key)} != {want}")
+    h, rows = read_csv(os.path.join(folder, "summary.csv"))
+    summary = {r[0]: r[1] for r in rows}
+    c.ok(f"{name}: summary.csv names the curve",
+         summary.get("curve", "").startswith(given["curve"]), summary.get("curve"))
+    wb = openpyxl.load_workbook(xlsx)
+    lines = [str(v) for row in wb["Summary"].iter_rows(values_only=True) for v in row if v]
+    c.ok(f"{name}: Summary names the curve",
+         any(v.startswith(given["curve"] + ":") for v in lines), "no curve line")
+
+
 def main():
     c = Checks()
     tmp = tempfile.mkdtemp(prefix="lopside-workbook-")
@@ -967,6 +1002,7 @@ def main():
                 j, xlsx, folder = solve(name, ini, tmp)
                 check_workbook(c, name, j, xlsx, text)
                 check_csv(c, name, j, folder)
+                check_curve(c, name, j, xlsx, folder, text)
                 print(f"ok {name}")
             except Exception:  # a crash in one problem is one failure, not the end
                 c.ok(f"{name} ran", False, traceback.format_exc())

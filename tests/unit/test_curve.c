@@ -5,6 +5,7 @@
 #include <gsl/gsl_rng.h>
 
 #include "lopside/model/curve.h"
+#include "lopside/model/curve_family.h"
 #include "lopside/model/density.h"
 #include "testutil.h"
 
@@ -1031,6 +1032,41 @@ START_TEST(tolerance_and_points_estimates_beat_a_fine_scan)
 }
 END_TEST
 
+/* The family table is what the reader, `check` and the writers share: every kind has
+ * exactly one family, found by its name, and a description shows the numbers as written
+ * (a payoff's scores negated back). */
+START_TEST(curve_families_cover_every_kind_and_describe_as_written)
+{
+    size_t n;
+    const lop_curve_family *f = lop_curve_families(&n);
+    ck_assert_uint_eq(n, 7);
+    for (size_t i = 0; i < n; i++) {
+        ck_assert_ptr_eq(lop_curve_family_named(f[i].name), &f[i]);
+        ck_assert_ptr_eq(lop_curve_family_of(f[i].kind), &f[i]);
+    }
+    ck_assert_ptr_null(lop_curve_family_named("quadratic"));
+    ck_assert(lop_curve_family_has(lop_curve_family_named("tolerance"), "half_width"));
+    ck_assert(!lop_curve_family_has(lop_curve_family_named("linlin"), "scale"));
+
+    char text[256];
+    lop_curve band = {.kind = LOP_CURVE_TOLERANCE, .below = 2, .above = 3, .inside = -5,
+                      .outside = 0};
+    lop_curve_describe(&band, -1, text, sizeof text);
+    ck_assert_str_eq(text, "tolerance: below 2, above 3, inside 5, outside 0");
+    const double e[] = {-1, 0, 2}, v[] = {4, 0, 6};
+    lop_curve pts = {.kind = LOP_CURVE_POINTS, .n_points = 3, .error = e, .value = v,
+                     .relative = true};
+    lop_curve_describe(&pts, 1, text, sizeof text);
+    ck_assert_str_eq(text, "points: (error, value) (-1, 4), (0, 0), (2, 6); error relative to "
+                           "the state");
+    /* a short buffer is cut, never overrun, and the full length is returned */
+    char tiny[8];
+    int full = lop_curve_describe(&band, -1, tiny, sizeof tiny);
+    ck_assert_int_eq(full, (int)strlen("tolerance: below 2, above 3, inside 5, outside 0"));
+    ck_assert_str_eq(tiny, "toleran");
+}
+END_TEST
+
 Suite *suite_curve(void)
 {
     Suite *s = suite_create("curve");
@@ -1054,6 +1090,7 @@ Suite *suite_curve(void)
     tcase_add_test(tc, cells_converge_smoothly_to_the_normal_closed_forms);
     tcase_add_test(tc, tolerance_windows_count_partial_cells);
     tcase_add_test(tc, tolerance_and_points_estimates_beat_a_fine_scan);
+    tcase_add_test(tc, curve_families_cover_every_kind_and_describe_as_written);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -50,13 +50,14 @@ typedef enum {
 /* Options of lop_curve_work_new, or-ed together.
  * LOP_CURVE_CELLS: the states are the points of a grid and each holds the mass of its cell
  * (between the midpoints to its neighbours; the first and last cells end at the first and
- * last state). Absolute, linlin and tolerance curves then integrate over the continuous
- * density of those masses (density.h: a quadratic between neighbouring states with the
- * interval's mass, the cumulative a cubic): a band end or a quantile inside an interval
- * splits it exactly. Squared, quadquad, LINEX and points curves keep the sum over points,
- * the midpoint rule of the same integral: the first three losses are smooth enough for it to
- * be second-order with no oscillating term of that order, and spreading the mass would
- * only add the cells' own variance (Sheppard's correction, h²/12).
+ * last state). Absolute, linlin, tolerance and (absolute-error) points curves then
+ * integrate over the continuous density of those masses (density.h: a quadratic between
+ * neighbouring states with the interval's mass, the cumulative a cubic): a band end, a
+ * knot or a quantile inside an interval splits it exactly. Squared, quadquad and LINEX
+ * curves keep the sum over points, the midpoint rule of the same integral: they are
+ * smooth enough for it to be second-order with no oscillating term of that order, and
+ * spreading the mass would only add the cells' own variance (Sheppard's correction,
+ * h²/12).
  * LOP_CURVE_CONTINUOUS: the estimate is any real number; the estimates are then only the
  * grid the expected loss is shown on. Without it the estimates are the actions. */
 enum { LOP_CURVE_CELLS = 1, LOP_CURVE_CONTINUOUS = 2 };

@@ -36,6 +36,7 @@ run_suite() {
 }
 
 run_suite "layers: includes run one way (tests/check_layers.py)" "$PYTHON" tests/check_layers.py
+run_suite "key table against README and program (tests/check_keys.py)" "$PYTHON" tests/check_keys.py
 run_suite "unit tests (Check)" "$UNIT_TESTS"
 run_suite "input catalogue (tests/cases)" sh tests/run_cases.sh
 run_suite "examples" sh tests/run_examples.sh

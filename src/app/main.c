@@ -42,7 +42,8 @@ static const char usage_main[] =
     "  run FILE     solve the problem in FILE and print the report\n"
     "  check FILE   validate FILE and print the problem as understood (exit 0 or 2)\n"
     "  demo         solve the built-in tone-detection example\n"
-    "  keys         print every section and key of the problem format\n"
+    "  keys         print every section and key of the problem format, with its type,\n"
+    "               allowed values and default (--markdown: as the README's table)\n"
     "\n"
     "Options:\n"
     "  -h, --help     this help; `lopside COMMAND --help` for a command\n"
@@ -364,7 +365,10 @@ int main(int argc, char **argv)
     if (strcmp(cmd, "demo") == 0)
         return cmd_demo(argc - 1, argv + 1);
     if (strcmp(cmd, "keys") == 0) {
-        lop_keys_print_reference(stdout);
+        bool markdown = argc == 3 && strcmp(argv[2], "--markdown") == 0;
+        if (argc > 3 || (argc == 3 && !markdown))
+            return usage_error(usage_main, "`keys` takes only --markdown, not `%s`", argv[2]);
+        lop_keys_print_reference(stdout, markdown);
         return EXIT_DONE;
     }
     return usage_error(usage_main, "unknown command `%s`", cmd);

@@ -11,7 +11,6 @@
 #include "lopside/util/strutil.h"
 #include "problem_build.h"
 
-#define GRID_POINTS_DEFAULT 1001
 /* A step must divide the grid's range this exactly (relative to the range). */
 #define STEP_SLACK 1e-9
 
@@ -185,7 +184,8 @@ static lop_status build_problem_section(builder *b)
         take_text(b, "problem", "notes", false, &p->notes) != LOP_OK ||
         take_text(b, "problem", "unit", false, &p->unit) != LOP_OK ||
         take_text(b, "problem", "score_unit", false, &p->score_unit) != LOP_OK ||
-        pb_number(b, "problem", "accuracy", false, LOP_ACCURACY_DEFAULT, &p->accuracy) != LOP_OK)
+        pb_number(b, "problem", "accuracy", false, lop_keys_default("problem", "accuracy"),
+                  &p->accuracy) != LOP_OK)
         return b->err->status;
     const lop_entry *acc = pb_find(b, "problem", "accuracy");
     if (acc && !(p->accuracy >= 1e-12 && p->accuracy <= 0.1))
@@ -193,7 +193,7 @@ static lop_status build_problem_section(builder *b)
                         "expected a number from 1e-12 to 0.1 (an error relative to each "
                         "number's scale), found %s", acc->value);
     double levels;
-    if (pb_number(b, "problem", "refine", false, 0, &levels) != LOP_OK)
+    if (pb_number(b, "problem", "refine", false, lop_keys_default("problem", "refine"), &levels) != LOP_OK)
         return b->err->status;
     const lop_entry *refine = pb_find(b, "problem", "refine");
     if (refine &&
@@ -213,7 +213,8 @@ static lop_status build_grid_states(builder *b)
     double from, to, limit;
     if (pb_number(b, "states", "from", true, 0, &from) != LOP_OK ||
         pb_number(b, "states", "to", true, 0, &to) != LOP_OK ||
-        pb_number(b, "states", "max_points", false, LOP_GRID_POINTS_LIMIT, &limit) != LOP_OK)
+        pb_number(b, "states", "max_points", false, lop_keys_default("states", "max_points"),
+                  &limit) != LOP_OK)
         return b->err->status;
     if (!(to > from))
         return pb_error(b, pb_find(b, "states", "to")->line, "states", "to",
@@ -228,7 +229,7 @@ static lop_status build_grid_states(builder *b)
     if (points && step)
         return pb_error(b, step->line, "states", "step",
                         "give points or step, not both (points on line %d)", points->line);
-    double n = GRID_POINTS_DEFAULT;
+    double n = lop_keys_default("states", "points");
     const lop_entry *size_entry = points ? points : step;
     if (points) {
         size_t count;

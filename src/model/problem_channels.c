@@ -10,13 +10,17 @@
 #include "lopside/model/evidence.h"
 #include "lopside/model/response.h"
 #include "lopside/util/strutil.h"
+#include "lopside/input/keys.h"
 #include "problem_build.h"
+
+/* Measurement points of the rule table when the file gives none: the least, for grid
+ * states more where the noise is narrow (rule_grid.c); keys.c states the same. */
+#define GRID_POINTS_DEFAULT 201
 
 /* A likelihood row must sum to 1 within this (format.md). */
 #define ROW_SUM_TOLERANCE 1e-6
 #define REPEATS_MAX 1000000
 #define GRID_POINTS_MAX 1000000
-#define GRID_POINTS_DEFAULT 201
 
 typedef struct {
     const char *name;
@@ -365,7 +369,8 @@ static lop_status build_noise_channel(builder *b, lop_channel *c)
     case LOP_NOISE_SCALAR: {
         double weber, floor_sd;
         if (pb_number(b, c->section, "weber", true, 0, &weber) != LOP_OK ||
-            pb_number(b, c->section, "sd_floor", false, 0, &floor_sd) != LOP_OK)
+            pb_number(b, c->section, "sd_floor", false, lop_keys_default("evidence", "sd_floor"),
+                      &floor_sd) != LOP_OK)
             return b->err->status;
         if (!(weber > 0))
             return pb_error(b, pb_find(b, c->section, "weber")->line, c->section, "weber",
@@ -390,7 +395,8 @@ static lop_status build_noise_channel(builder *b, lop_channel *c)
         break;
     }
     case LOP_NOISE_POISSON:
-        if (pb_number(b, c->section, "window", false, 1, &c->window) != LOP_OK)
+        if (pb_number(b, c->section, "window", false, lop_keys_default("evidence", "window"),
+                      &c->window) != LOP_OK)
             return b->err->status;
         if (!(c->window > 0))
             return pb_error(b, pb_find(b, c->section, "window")->line, c->section, "window",
@@ -543,7 +549,7 @@ lop_status pb_build_channels(builder *b)
         if (!c->section || !c->name)
             return pb_no_memory(b);
         c->line = s->line;
-        c->repeats = 1;
+        c->repeats = (size_t)lop_keys_default("evidence", "repeats");
         const lop_entry *rep = pb_find(b, s->name, "repeats");
         if (rep && lop_parse_count(b->cfg, rep, 1, REPEATS_MAX, &c->repeats, b->err) != LOP_OK)
             return b->err->status;

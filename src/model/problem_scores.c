@@ -271,7 +271,7 @@ static lop_status read_curve_params(builder *b, const char *section,
     bool scaled = spec->kind == LOP_CURVE_SQUARED || spec->kind == LOP_CURVE_ABSOLUTE ||
                   spec->kind == LOP_CURVE_LINEX;
     bool sided = spec->kind == LOP_CURVE_LINLIN || spec->kind == LOP_CURVE_QUADQUAD;
-    if ((scaled && pb_number(b, section, "scale", false, 1, &c->scale) != LOP_OK) ||
+    if ((scaled && pb_number(b, section, "scale", false, lop_keys_default("loss", "scale"), &c->scale) != LOP_OK) ||
         (sided && (pb_number(b, section, "under", true, 0, &c->under) != LOP_OK ||
                    pb_number(b, section, "over", true, 0, &c->over) != LOP_OK)) ||
         (spec->kind == LOP_CURVE_LINEX && pb_number(b, section, "a", true, 0, &c->a) != LOP_OK))
@@ -293,7 +293,7 @@ static lop_status read_curve_params(builder *b, const char *section,
         }
         /* [loss]: inside defaults to 0 and outside is required; [payoff]: the reverse
          * would be odd, so both are required there. */
-        if (pb_number(b, section, "inside", p->payoff, 0, &c->inside) != LOP_OK ||
+        if (pb_number(b, section, "inside", p->payoff, lop_keys_default("loss", "inside"), &c->inside) != LOP_OK ||
             pb_number(b, section, "outside", true, 0, &c->outside) != LOP_OK)
             return b->err->status;
         c->inside *= sign;

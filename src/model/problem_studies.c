@@ -97,8 +97,8 @@ static lop_status build_value(builder *b)
         return pb_error(b, sec->line, "value", NULL,
                         "the value of information needs [evidence] channels to price");
     double up_to;
-    if (pb_number(b, "value", "up_to", false, 5, &up_to) != LOP_OK ||
-        pb_number(b, "value", "cost", false, 0, &v->cost) != LOP_OK)
+    if (pb_number(b, "value", "up_to", false, lop_keys_default("value", "up_to"), &up_to) != LOP_OK ||
+        pb_number(b, "value", "cost", false, lop_keys_default("value", "cost"), &v->cost) != LOP_OK)
         return b->err->status;
     if (up_to < 1 || up_to != floor(up_to) || up_to > 1000)
         return pb_error(b, pb_find(b, "value", "up_to")->line, "value", "up_to",
@@ -159,7 +159,7 @@ static lop_status read_axis(builder *b, const char *section, const char *axis,
         return b->err->status;
     snprintf(key, sizeof key, "%s_points", axis);
     const lop_entry *e = pb_find(b, section, key);
-    *points = 21;
+    *points = (size_t)lop_keys_default("sweep", "x_points");
     if (e && lop_parse_count(b->cfg, e, 2, SWEEP_POINTS_MAX, points, b->err) != LOP_OK)
         return b->err->status;
     if (*to == *from)
@@ -347,14 +347,14 @@ static lop_status build_simulate(builder *b)
     m->present = true;
     m->line = sec->line;
     const lop_entry *e;
-    m->sessions = 1000;
-    m->trials = 100;
+    m->sessions = (size_t)lop_keys_default("simulate", "sessions");
+    m->trials = (size_t)lop_keys_default("simulate", "trials");
     if (((e = pb_find(b, "simulate", "sessions")) &&
          lop_parse_count(b->cfg, e, 1, SESSIONS_MAX, &m->sessions, b->err) != LOP_OK) ||
         ((e = pb_find(b, "simulate", "trials")) &&
          lop_parse_count(b->cfg, e, 1, TRIALS_MAX, &m->trials, b->err) != LOP_OK))
         return b->err->status;
-    size_t seed = 1;
+    size_t seed = (size_t)lop_keys_default("simulate", "seed");
     if ((e = pb_find(b, "simulate", "seed")) &&
         lop_parse_count(b->cfg, e, 0, 4294967295u, &seed, b->err) != LOP_OK)
         return b->err->status;

@@ -15,9 +15,8 @@
  * numbers in it (combinations x (outcome counts + states)): about 160 MB. */
 #define LOP_RULE_COMBINATIONS_MAX 1000000
 #define LOP_RULE_CELLS_LIMIT 20000000
-/* [problem] accuracy when the file gives none (design.md), and the most halvings of the
- * grids that [problem] refine may ask for. */
-#define LOP_ACCURACY_DEFAULT 1e-6
+/* The most and fewest halvings of the grids that [problem] refine may ask for (the key
+ * table, keys.c, states the same range). */
 #define LOP_REFINE_MAX 20
 #define LOP_REFINE_MIN (-2)
 /* Most cells of a state grid unless the file raises it with [states] max_points. */

@@ -1,5 +1,6 @@
 /* The CSV folder: one RFC 4180 file per table (UTF-8, a header row, `.` as the decimal
- * point, numbers at 17 significant digits, CRLF line ends), and index.csv listing them.
+ * point, numbers as the shortest decimal that reads back to the same double, CRLF line
+ * ends), and index.csv listing them.
  *
  * Safety: every file is written to a temporary beside its target inside the folder; only
  * when all of them (and the run's other outputs) are complete are they renamed into
@@ -17,6 +18,7 @@
 
 #include "lopside/outfile.h"
 #include "lopside/report.h"
+#include "lopside/strutil.h"
 #include "report_csv_private.h"
 
 /* --- low-level output ------------------------------------------------------------- */
@@ -91,13 +93,13 @@ void csv_str(csv_set *set, const char *s)
 
 void csv_num(csv_set *set, double v)
 {
-    char buf[40];
+    char buf[LOP_NUMBER_MAX];
     if (isnan(v))
         snprintf(buf, sizeof buf, "nan");
     else if (isinf(v))
         snprintf(buf, sizeof buf, "%s", v > 0 ? "inf" : "-inf");
     else
-        snprintf(buf, sizeof buf, "%.17g", v);
+        lop_shortest_number(v, buf, sizeof buf);
     csv_str(set, buf);
 }
 

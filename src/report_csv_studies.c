@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "lopside/report.h"
+#include "lopside/strutil.h"
 #include "report_csv_private.h"
 #include "report_studies.h"
 
@@ -83,11 +84,12 @@ static void table_value_extra(csv_set *set)
     const lop_value_result *v = &set->r->value;
     if (!v->present || !v->n_extra)
         return;
-    char holds[512];
+    char holds[512], cost[LOP_NUMBER_MAX];
     snprintf(holds, sizeof holds, "[value]: per channel and n more measurements beyond the "
-             "design's repeats, the EVSI, their cost (n times %.17g) and the net value, in %s "
+             "design's repeats, the EVSI, their cost (n times %s) and the net value, in %s "
              "per decision; on_the_mean is 1 where the EVSI is a lower bound (decided on the "
-             "mean of the repeats)", p->value.cost, csv_score_unit(p));
+             "mean of the repeats)", lop_shortest_number(p->value.cost, cost, sizeof cost),
+             csv_score_unit(p));
     if (!csv_begin(set, "value_extra.csv", holds))
         return;
     static const char *const head[] = {"channel", "n", "evsi", "cost", "net", "on_the_mean",

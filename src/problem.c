@@ -41,20 +41,6 @@ int pb_section_line(builder *b, const char *section)
     return s ? s->line : 0;
 }
 
-const char *pb_nearest(const char *word, char **choices, size_t n)
-{
-    const char *best = NULL;
-    size_t best_d = (size_t)-1;
-    for (size_t i = 0; i < n; i++) {
-        size_t d = lop_edit_distance(word, choices[i]);
-        if (d < best_d) {
-            best_d = d;
-            best = choices[i];
-        }
-    }
-    return best && lop_close_enough(best_d, strlen(word)) ? best : NULL;
-}
-
 lop_status pb_number(builder *b, const char *section, const char *key, bool required,
                      double fallback, double *out)
 {

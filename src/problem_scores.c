@@ -8,6 +8,7 @@
 #include "lopside/interp.h"
 #include "lopside/prior.h"
 #include "lopside/keys.h"
+#include "lopside/strutil.h"
 #include "problem_build.h"
 
 typedef struct {
@@ -68,7 +69,7 @@ static lop_status check_rows(builder *b, const char *section)
             if (strcmp(p->actions[k], e->key) == 0)
                 a = (long)k;
         if (a < 0) {
-            const char *near = pb_nearest(e->key, p->actions, p->n_actions);
+            const char *near = lop_nearest(e->key, p->actions, p->n_actions);
             if (!near)
                 near = lop_keys_suggest(section, e->key);
             return pb_error(b, e->line, section, e->key,
@@ -360,7 +361,7 @@ static lop_status build_curve(builder *b, const char *section)
         char *names[COUNT(curves)];
         for (size_t i = 0; i < COUNT(curves); i++)
             names[i] = (char *)curves[i].name;
-        const char *near = pb_nearest(e->value, names, COUNT(curves));
+        const char *near = lop_nearest(e->value, names, COUNT(curves));
         return pb_error(b, e->line, section, "curve",
                         "unknown curve `%s`%s%s%s; known: squared, absolute, linlin, "
                         "quadquad, linex, tolerance, points",

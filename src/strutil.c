@@ -141,6 +141,20 @@ bool lop_close_enough(size_t d, size_t len)
     return d <= limit && d < len;
 }
 
+const char *lop_nearest(const char *word, char **choices, size_t n)
+{
+    const char *best = NULL;
+    size_t best_d = (size_t)-1;
+    for (size_t i = 0; i < n; i++) {
+        size_t d = lop_edit_distance(word, choices[i]);
+        if (d < best_d) {
+            best_d = d;
+            best = choices[i];
+        }
+    }
+    return best && lop_close_enough(best_d, strlen(word)) ? best : NULL;
+}
+
 char *lop_shortest_number(double v, char *buf, size_t size)
 {
     /* 15 digits are not always enough to tell doubles apart, 17 always are; the first that

@@ -26,6 +26,17 @@ START_TEST(edit_distance_counts_single_edits)
 }
 END_TEST
 
+START_TEST(nearest_suggests_only_close_choices)
+{
+    char *options[] = {"json", "workbook", "csv", "quiet"};
+    ck_assert_str_eq(lop_nearest("jsn", options, 4), "json");        /* one deletion */
+    ck_assert_str_eq(lop_nearest("workbok", options, 4), "workbook"); /* one insertion */
+    ck_assert_str_eq(lop_nearest("QUIET", options, 4), "quiet");      /* case is free */
+    ck_assert_ptr_null(lop_nearest("zzzzzz", options, 4));            /* nothing near */
+    ck_assert_ptr_null(lop_nearest("js", options, 0));
+}
+END_TEST
+
 /* The texts wanted are Python's repr of the same doubles (its repr is the shortest decimal
  * that reads back, with the closest such text among ties); C writes 1e-05 where Python does
  * too, and -0 where Python writes -0.0. */
@@ -56,6 +67,7 @@ Suite *suite_strutil(void)
     TCase *tc = tcase_create("strutil");
     tcase_add_test(tc, utf8_accepts_text_and_rejects_garbage);
     tcase_add_test(tc, edit_distance_counts_single_edits);
+    tcase_add_test(tc, nearest_suggests_only_close_choices);
     tcase_add_test(tc, shortest_number_reads_back_and_is_shortest);
     suite_add_tcase(s, tc);
     return s;

@@ -591,12 +591,11 @@ static void table_rule_grid(csv_set *set)
         return;
     if (p->estimate ? !rule->grid_estimate : !rule->grid_action)
         return;
-    const lop_channel *c = &p->channels[rule->numeric_channel];
-    char holds[512];
+    char holds[512], measure[160];
+    lop_report_measurement_name(measure, sizeof measure, &p->channels[rule->numeric_channel]);
     snprintf(holds, sizeof holds, "the Bayes %s at every point x of the measurement grid "
-             "of %s%s, for every row of rule_table.csv (row; given describes it)",
-             p->estimate ? "estimate" : "action",
-             c->repeats > 1 ? "the summary of the repeats of " : "", lop_report_channel_name(c));
+             "of %s, for every row of rule_table.csv (row; given describes it)",
+             p->estimate ? "estimate" : "action", measure);
     if (!csv_begin(set, "rule_grid.csv", holds))
         return;
     const char *head[] = {"row", "given", "x", p->estimate ? "estimate" : "action", NULL};
@@ -624,9 +623,12 @@ static void table_switch_points(csv_set *set)
     const lop_rule_result *rule = &set->r->rule;
     if (!set->r->has_rule || !rule->computed || rule->numeric_channel < 0 || p->estimate)
         return;
-    if (!csv_begin(set, "switch_points.csv", "the measurements x where the Bayes action "
-                   "changes, from the action below x to the one above, per row of "
-                   "rule_table.csv (empty when one action is best everywhere)"))
+    char holds[512], measure[160];
+    lop_report_measurement_name(measure, sizeof measure, &p->channels[rule->numeric_channel]);
+    snprintf(holds, sizeof holds, "the values x of %s where the Bayes action changes, from the "
+             "action below x to the one above, per row of rule_table.csv (empty when one action "
+             "is best everywhere)", measure);
+    if (!csv_begin(set, "switch_points.csv", holds))
         return;
     static const char *const head[] = {"row", "given", "x", "from", "to", NULL};
     csv_header(set, head);

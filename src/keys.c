@@ -91,7 +91,7 @@ static const lop_key_spec keys[] = {
     {"actions", "to", "estimate grid: last point"},
     {"actions", "points", "estimate grid: number of points"},
 
-    {"loss", "*", "ACTION = one loss per state, band or `at` point"},
+    {"loss", "*", "ACTION or row.ACTION = one loss per state, band or `at` point"},
     {"loss", "cuts", "grid states: band edges (a state on a cut is in the upper band)"},
     {"loss", "at", "grid states: points of a piecewise-linear loss"},
     {"loss", "curve", "estimates: squared, absolute, linlin, quadquad, linex, "
@@ -108,7 +108,7 @@ static const lop_key_spec keys[] = {
     {"loss", "outside", "tolerance: score outside the band"},
     {"loss", "error", "points: increasing errors"},
     {"loss", "value", "points: score at each error"},
-    {"payoff", "*", "ACTION = one payoff per state, band or `at` point"},
+    {"payoff", "*", "ACTION or row.ACTION = one payoff per state, band or `at` point"},
     {"payoff", "cuts", "grid states: band edges"},
     {"payoff", "at", "grid states: points of a piecewise-linear payoff"},
     {"payoff", "curve", "estimates: tolerance or points"},

@@ -453,11 +453,6 @@ static lop_status build_actions(builder *b)
     pb_take_list(&list, &p->actions, &p->n_actions);
     if (p->n_actions < 2)
         return pb_error(b, e->line, "actions", "labels", "a decision needs at least two actions");
-    for (size_t a = 0; a < p->n_actions; a++)
-        if (lop_keys_find("loss", p->actions[a]))
-            return pb_error(b, e->line, "actions", "labels",
-                            "`%s` is a key of [loss]/[payoff]; choose another label",
-                            p->actions[a]);
     return LOP_OK;
 }
 

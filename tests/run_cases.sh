@@ -14,7 +14,8 @@
 # folder of its own, so stray output next to the file is caught too.
 # Every bad case is also run with CRLF line endings (its line numbers must not move),
 # every good case with CRLF and with a UTF-8 byte order mark. Cases a text file should
-# not hold (binary bytes, over-long lines) are generated below.
+# not hold (binary bytes, over-long lines) are generated below, and so are the
+# command-line misuses (a misspelt option or command) with the message each must give.
 #
 # Usage, from the repository root: LOPSIDE=build/lopside sh tests/run_cases.sh
 # Prints `ok NAME` or `FAIL NAME: why` per case and ends with `N passed, M failed`.
@@ -312,6 +313,50 @@ check_good gen_line_198+crlf "$base_expect"
 new_case gen_long_comment long_comment
 after_line1 "$base" '; %s\n' "$(repeat_to "Session notes from the pacing pilot. " 1000)" >"$FILE"
 check_good gen_long_comment "$base_expect"
+
+# ---- the command line: misuse exits 2, writes nothing, and names the nearest option or
+# command. ARGS may hold FILE, replaced by a valid problem; the first stderr line must
+# contain FRAGMENT.
+# check_usage ID FRAGMENT ARGS...
+check_usage() {
+    id=$1
+    frag=$2
+    shift 2
+    new_case "$id" "$id"
+    cp "$base" "$FILE"
+    n=$#
+    for a in "$@"; do
+        [ "$a" = FILE ] && a=$FILE
+        set -- "$@" "$a"
+    done
+    shift "$n"
+    run_lopside "$@"
+    if exit_status usage; then
+        [ "$RC" -eq 2 ] || note "exit $RC, expected 2"
+        line=$(head -n 1 "$DIR/err")
+        case $line in
+            *"$frag"*) ;;
+            *) note "expected '$frag', got '$line'" ;;
+        esac
+        [ -s "$DIR/out" ] && note "printed to stdout"
+        check_nothing_written usage
+    fi
+    report "$id"
+}
+
+check_usage usage_option_misspelt 'lopside: unknown option --jsn; did you mean --json?' \
+    run FILE --jsn out.json
+check_usage usage_option_misspelt_value 'lopside: unknown option --workbok; did you mean --workbook?' \
+    run FILE --workbok=out.xlsx
+check_usage usage_option_no_value 'lopside: option --csv needs a value' run FILE --csv
+check_usage usage_option_given_value 'lopside: option --quiet takes no value' run FILE --quiet=yes
+check_usage usage_option_far 'lopside: unknown option --zzzzzz' run FILE --zzzzzz
+check_usage usage_print_not_demo 'lopside: option --print belongs to `lopside demo`' \
+    run FILE --print
+check_usage usage_demo_option_misspelt 'lopside: unknown option --prnt; did you mean --print?' \
+    demo --prnt
+check_usage usage_command_misspelt 'lopside: unknown command `chekc`; did you mean `check`?' \
+    chekc FILE
 
 echo "$passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -20,6 +20,7 @@
 #include "lopside/util/provenance.h"
 #include "lopside/report/report.h"
 #include "lopside/studies/simulate.h"
+#include "lopside/util/strutil.h"
 
 enum { EXIT_DONE = 0, EXIT_RUNTIME = 1, EXIT_USAGE = 2 };
 
@@ -221,18 +222,49 @@ done:
     return status;
 }
 
+static const struct option longopts[] = {
+    {"json", required_argument, NULL, 'j'},
+    {"workbook", required_argument, NULL, 'w'},
+    {"csv", required_argument, NULL, 'c'},
+    {"quiet", no_argument, NULL, 'q'},
+    {"print", no_argument, NULL, 'p'},
+    {"help", no_argument, NULL, 'h'},
+    {NULL, 0, NULL, 0},
+};
+
+/* Returns EXIT_USAGE after saying what was wrong with the option getopt_long refused at
+ * argv[optind - 1]: a known option lacking or given a value, or an unknown one with the
+ * nearest option this command takes (`--print` is demo's alone). */
+static int option_error(const char *usage, char **argv, bool demo)
+{
+    char text[256];
+    const char *arg = argv[optind - 1];
+    const struct option *known = NULL;
+    for (const struct option *o = longopts; o->name && optopt; o++)
+        if (o->val == optopt && (demo || o->val != 'p'))
+            known = o;
+    if (known && strncmp(arg, "--", 2) == 0) {
+        snprintf(text, sizeof text, "option --%s %s", known->name,
+                 known->has_arg == required_argument ? "needs a value" : "takes no value");
+    } else if (strncmp(arg, "--", 2) == 0) {
+        char name[64], *names[sizeof longopts / sizeof *longopts];
+        size_t n = 0;
+        snprintf(name, sizeof name, "%.*s", (int)strcspn(arg + 2, "="), arg + 2);
+        for (const struct option *o = longopts; o->name; o++)
+            if (demo || o->val != 'p')
+                names[n++] = (char *)o->name;
+        const char *near = lop_nearest(name, names, n);
+        snprintf(text, sizeof text, "unknown option --%s%s%s%s", name,
+                 near ? "; did you mean --" : "", near ? near : "", near ? "?" : "");
+    } else {
+        snprintf(text, sizeof text, "unknown option -%c", optopt ? optopt : '?');
+    }
+    return usage_error(usage, "%s", text);
+}
+
 static int parse_run_options(int argc, char **argv, const char *usage, run_options *opt,
                              int *print_demo)
 {
-    static const struct option longopts[] = {
-        {"json", required_argument, NULL, 'j'},
-        {"workbook", required_argument, NULL, 'w'},
-        {"csv", required_argument, NULL, 'c'},
-        {"quiet", no_argument, NULL, 'q'},
-        {"print", no_argument, NULL, 'p'},
-        {"help", no_argument, NULL, 'h'},
-        {NULL, 0, NULL, 0},
-    };
     optind = 1;
     opterr = 0;
     int ch;
@@ -244,12 +276,12 @@ static int parse_run_options(int argc, char **argv, const char *usage, run_optio
         case 'q': opt->quiet = 1; break;
         case 'p':
             if (!print_demo)
-                return usage_error(usage, "unknown option %s", "--print");
+                return usage_error(usage, "%s", "option --print belongs to `lopside demo`");
             *print_demo = 1;
             break;
         case 'h': fputs(usage, stdout); return -1;
         default:
-            return usage_error(usage, "unknown or incomplete option %s", argv[optind - 1]);
+            return option_error(usage, argv, print_demo != NULL);
         }
     }
     return EXIT_DONE;
@@ -371,5 +403,10 @@ int main(int argc, char **argv)
         lop_keys_print_reference(stdout, markdown);
         return EXIT_DONE;
     }
-    return usage_error(usage_main, "unknown command `%s`", cmd);
+    char *commands[] = {"run", "check", "demo", "keys", "help"};
+    const char *near = lop_nearest(cmd, commands, sizeof commands / sizeof *commands);
+    char text[256];
+    snprintf(text, sizeof text, "unknown command `%.64s`%s%s%s", cmd,
+             near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");
+    return usage_error(usage_main, "%s", text);
 }

@@ -160,7 +160,7 @@ static const lop_key_spec keys[] = {
      "estimate grid: number of points"},
 
     {"loss", "*", LOP_KEY_NUMBERS, "", "",
-     "ACTION = one loss per state, band or `at` point"},
+     "ACTION or row.ACTION = one loss per state, band or `at` point"},
     {"loss", "cuts", LOP_KEY_NUMBERS, "increasing", "",
      "grid states: band edges (a state on a cut is in the upper band)"},
     {"loss", "at", LOP_KEY_NUMBERS, "increasing", "",
@@ -193,7 +193,7 @@ static const lop_key_spec keys[] = {
     {"loss", "value", LOP_KEY_NUMBERS, "", "",
      "points: score at each error"},
     {"payoff", "*", LOP_KEY_NUMBERS, "", "",
-     "ACTION = one payoff per state, band or `at` point"},
+     "ACTION or row.ACTION = one payoff per state, band or `at` point"},
     {"payoff", "cuts", LOP_KEY_NUMBERS, "increasing", "",
      "grid states: band edges"},
     {"payoff", "at", LOP_KEY_NUMBERS, "increasing", "",

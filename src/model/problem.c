@@ -41,20 +41,6 @@ int pb_section_line(builder *b, const char *section)
     return s ? s->line : 0;
 }
 
-const char *pb_nearest(const char *word, char **choices, size_t n)
-{
-    const char *best = NULL;
-    size_t best_d = (size_t)-1;
-    for (size_t i = 0; i < n; i++) {
-        size_t d = lop_edit_distance(word, choices[i]);
-        if (d < best_d) {
-            best_d = d;
-            best = choices[i];
-        }
-    }
-    return best && lop_close_enough(best_d, strlen(word)) ? best : NULL;
-}
-
 lop_status pb_number(builder *b, const char *section, const char *key, bool required,
                      double fallback, double *out)
 {
@@ -470,11 +456,6 @@ static lop_status build_actions(builder *b)
     pb_take_list(&list, &p->actions, &p->n_actions);
     if (p->n_actions < 2)
         return pb_error(b, e->line, "actions", "labels", "a decision needs at least two actions");
-    for (size_t a = 0; a < p->n_actions; a++)
-        if (lop_keys_find("loss", p->actions[a]))
-            return pb_error(b, e->line, "actions", "labels",
-                            "`%s` is a key of [loss]/[payoff]; choose another label",
-                            p->actions[a]);
     return LOP_OK;
 }
 

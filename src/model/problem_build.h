@@ -22,8 +22,6 @@ lop_status pb_no_memory(builder *b);
 const lop_entry *pb_find(builder *b, const char *section, const char *key);
 /* Returns the line of a section's header, 0 when the file has no such section. */
 int pb_section_line(builder *b, const char *section);
-/* The nearest of choices to word when close enough to suggest, else NULL. */
-const char *pb_nearest(const char *word, char **choices, size_t n);
 /* Reads an optional number (default when absent); errors name the entry. */
 lop_status pb_number(builder *b, const char *section, const char *key, bool required,
                      double fallback, double *out);

@@ -83,7 +83,7 @@ static lop_status build_table_channel(builder *b, lop_channel *c)
         for (size_t s = 0; s < p->n_states; s++)
             known |= strcmp(g->key + 6, p->state_labels[s]) == 0;
         if (!known) {
-            const char *near = pb_nearest(g->key + 6, p->state_labels, p->n_states);
+            const char *near = lop_nearest(g->key + 6, p->state_labels, p->n_states);
             return pb_error(b, g->line, c->section, g->key,
                                "`%s` is not a state%s%s%s", g->key + 6,
                                near ? "; did you mean `given." : "", near ? near : "",
@@ -178,7 +178,7 @@ static const noise_spec *find_noise(builder *b, const lop_channel *c, const lop_
     char *names[COUNT(noises)];
     for (size_t i = 0; i < COUNT(noises); i++)
         names[i] = (char *)noises[i].name;
-    const char *near = pb_nearest(e->value, names, COUNT(noises));
+    const char *near = lop_nearest(e->value, names, COUNT(noises));
     pb_error(b, e->line, c->section, "noise",
              "unknown noise `%s`%s%s%s; known: gaussian, scalar, lognormal, poisson, binomial",
              e->value, near ? " (did you mean `" : "", near ? near : "", near ? "`?)" : "");
@@ -479,7 +479,7 @@ static lop_status build_observed(builder *b, lop_channel *c)
             if (strcmp(c->outcomes[o], list.items[i]) == 0)
                 k = (long)o;
         if (k < 0) {
-            const char *near = pb_nearest(list.items[i], c->outcomes, c->n_outcomes);
+            const char *near = lop_nearest(list.items[i], c->outcomes, c->n_outcomes);
             st = pb_error(b, list.lines[i], c->section, "observed",
                           "`%s` is not an outcome of this channel%s%s%s", list.items[i],
                           near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");

@@ -96,7 +96,7 @@ static lop_status build_rule(builder *b, const lop_section *s, lop_rule_spec *r)
         char *names[COUNT(kinds)];
         for (size_t i = 0; i < COUNT(kinds); i++)
             names[i] = (char *)kinds[i].name;
-        const char *near = pb_nearest(kind->value, names, COUNT(kinds));
+        const char *near = lop_nearest(kind->value, names, COUNT(kinds));
         return pb_error(b, kind->line, s->name, "kind", "unknown kind `%s`%s%s%s",
                         kind->value, near ? "; did you mean `" : "", near ? near : "",
                         near ? "`?" : "");

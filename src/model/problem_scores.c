@@ -9,6 +9,7 @@
 #include "lopside/model/curve_family.h"
 #include "lopside/model/prior.h"
 #include "lopside/input/keys.h"
+#include "lopside/util/strutil.h"
 #include "problem_build.h"
 
 static const char *const curve_keys[] = {"scale", "under", "over", "a", "half_width", "below",
@@ -16,19 +17,71 @@ static const char *const curve_keys[] = {"scale", "under", "over", "a", "half_wi
 
 #define COUNT(x) (sizeof(x) / sizeof(x)[0])
 
-/* Keys of the other modes (rows, cuts, at, curve) are mistakes, not ignored. */
+/* The prefix that makes a key an action's row whatever its label (`row.cuts`). */
+#define ROW_PREFIX "row."
+
+/* Returns the index of the action labelled `label`, -1 when none is. */
+static long action_index(const lop_problem *p, const char *label)
+{
+    for (size_t k = 0; k < p->n_actions; k++)
+        if (strcmp(p->actions[k], label) == 0)
+            return (long)k;
+    return -1;
+}
+
+/* Returns what key means in choices over these states, NULL when nothing: `cuts` and
+ * `at` on a grid of states. Curve keys belong to estimates, which have no labels, so a
+ * label such as `a` or `value` written as a key can only be that action's row. */
+static const char *choice_key(const lop_problem *p, const char *key)
+{
+    if (p->states_kind != LOP_STATES_GRID)
+        return NULL;
+    if (strcmp(key, "cuts") == 0)
+        return "the band edges";
+    return strcmp(key, "at") == 0 ? "the points of the lines" : NULL;
+}
+
+/* Keys of the other modes (rows, cuts, at, curve) are mistakes, not ignored; a key that
+ * is an action's label is that action's row. */
 static lop_status reject_keys(builder *b, const char *section, const char *const *keys,
                               size_t n, const char *why)
 {
     for (size_t i = 0; i < n; i++) {
         const lop_entry *e = pb_find(b, section, keys[i]);
-        if (e)
+        if (e && action_index(b->p, keys[i]) < 0)
             return pb_error(b, e->line, section, e->key, "%s", why);
     }
     return LOP_OK;
 }
 
-/* Allocates the loss matrix; every non-format key must name an action. */
+/* Checks that the row of action a is given once: as `row.LABEL`, or as `LABEL` when that
+ * key means nothing else here; where it does (`cuts` on a grid of states), the plain
+ * key is that meaning only when `row.LABEL` is there too, and ambiguous without it. */
+static lop_status check_row_once(builder *b, const char *section, size_t a)
+{
+    const char *label = b->p->actions[a];
+    char sub_key[256];
+    snprintf(sub_key, sizeof sub_key, ROW_PREFIX "%s", label);
+    const lop_entry *plain = pb_find(b, section, label), *sub = pb_find(b, section, sub_key);
+    const char *meaning = choice_key(b->p, label);
+    if (plain && !sub && meaning)
+        return pb_error(b, plain->line, section, label,
+                        "`%s` is an action of [actions] labels and also the key of %s of a "
+                        "grid of states, so this line is ambiguous: write the action's row as "
+                        "`" ROW_PREFIX "%s = ...` (and %s as `%s = ...`)",
+                        label, meaning, label, meaning, label);
+    if (plain && sub && !meaning) {
+        const lop_entry *later = plain->line > sub->line ? plain : sub;
+        return pb_error(b, later->line, section, later->key,
+                        "the row of `%s` is given twice (as `%s` on line %d and as `%s` on "
+                        "line %d); keep one",
+                        label, label, plain->line, sub_key, sub->line);
+    }
+    return LOP_OK;
+}
+
+/* Allocates the loss matrix; every non-format key must name an action, plainly or as
+ * `row.LABEL`, and each action's row is given once. */
 static lop_status check_rows(builder *b, const char *section)
 {
     lop_problem *p = b->p;
@@ -37,31 +90,48 @@ static lop_status check_rows(builder *b, const char *section)
         return pb_no_memory(b);
     for (size_t i = 0; i < b->cfg->n_entries; i++) {
         const lop_entry *e = &b->cfg->entries[i];
-        if (strcmp(e->section, section) != 0 || lop_keys_find(section, e->key))
+        if (strcmp(e->section, section) != 0)
             continue;
-        long a = -1;
-        for (size_t k = 0; k < p->n_actions; k++)
-            if (strcmp(p->actions[k], e->key) == 0)
-                a = (long)k;
-        if (a < 0) {
-            const char *near = pb_nearest(e->key, p->actions, p->n_actions);
-            if (!near)
-                near = lop_keys_suggest(section, e->key);
-            return pb_error(b, e->line, section, e->key,
-                            "not an action of [actions] labels%s%s%s",
-                            near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");
+        bool sub = strncmp(e->key, ROW_PREFIX, strlen(ROW_PREFIX)) == 0;
+        const char *label = sub ? e->key + strlen(ROW_PREFIX) : e->key;
+        long a = action_index(p, label);
+        if (a >= 0) {
+            if (check_row_once(b, section, (size_t)a) != LOP_OK)
+                return b->err->status;
+            continue;
         }
+        if (!sub && lop_keys_find(section, e->key))
+            continue;
+        const char *near = lop_nearest(label, p->actions, p->n_actions);
+        if (!near && !sub)
+            near = lop_keys_suggest(section, e->key);
+        return pb_error(b, e->line, section, e->key,
+                        "not an action of [actions] labels%s%s%s%s",
+                        near ? "; did you mean `" : "", near && sub ? ROW_PREFIX : "",
+                        near ? near : "", near ? "`?" : "");
     }
     return LOP_OK;
 }
 
-/* Reads action a's row of `width` numbers from its entry (required). */
+/* Reads action a's row of `width` numbers from its entry (required): `row.LABEL`, else
+ * `LABEL` unless that key means something else here. */
 static lop_status read_row(builder *b, const char *section, size_t a, size_t width,
                            const char *what, double **row)
 {
-    const lop_entry *e = pb_find(b, section, b->p->actions[a]);
+    const char *label = b->p->actions[a];
+    char sub_key[256];
+    snprintf(sub_key, sizeof sub_key, ROW_PREFIX "%s", label);
+    const char *meaning = choice_key(b->p, label);
+    const lop_entry *e = pb_find(b, section, sub_key);
+    if (!e && !meaning)
+        e = pb_find(b, section, label);
+    if (!e && meaning)
+        return pb_error(b, pb_section_line(b, section), section, sub_key,
+                        "missing: every action needs a row with one value per %s; `%s` is "
+                        "also the key of %s, so write the row of action `%s` as `%s = ...`",
+                        what, label, meaning, label, sub_key);
     if (!e)
-        return pb_error(b, pb_section_line(b, section), section, b->p->actions[a],
+        return pb_error(b, pb_section_line(b, section), section, label,
                         "missing: every action needs a row with one value per %s", what);
     size_t n;
     if (lop_parse_numbers(b->cfg, e, row, &n, b->err) != LOP_OK)
@@ -336,7 +406,7 @@ static lop_status build_curve(builder *b, const char *section)
         char *names[16];
         for (size_t i = 0; i < n_families && i < COUNT(names); i++)
             names[i] = (char *)families[i].name;
-        const char *near = pb_nearest(e->value, names, n_families < COUNT(names) ? n_families : COUNT(names));
+        const char *near = lop_nearest(e->value, names, n_families < COUNT(names) ? n_families : COUNT(names));
         return pb_error(b, e->line, section, "curve",
                         "unknown curve `%s`%s%s%s; known: squared, absolute, linlin, "
                         "quadquad, linex, tolerance, points",

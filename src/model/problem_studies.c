@@ -70,6 +70,11 @@ static lop_status take_path(builder *b, const char *section, const char *key, bo
         return pb_no_memory(b);
     if (special_ok && strcmp(e->value, "rule.threshold") == 0)
         return LOP_OK;
+    char *special[] = {"rule.threshold"};
+    if (special_ok && !path_section(b->cfg, e->value) && lop_nearest(e->value, special, 1))
+        return pb_error(b, e->line, section, key,
+                        "`%s` names nothing; did you mean `rule.threshold` (every threshold "
+                        "of a two-action problem)?", e->value);
     /* Studies re-build the model: a path into another study or an output changes
      * nothing that is solved. */
     static const char *const not_model[] = {"value.", "sweep.", "design.", "simulate.",
@@ -133,7 +138,7 @@ static lop_status build_value(builder *b)
             if (strcmp(names[i], list.items[k]) == 0)
                 found = (long)i;
         if (found < 0) {
-            const char *near = pb_nearest(list.items[k], names, p->n_channels);
+            const char *near = lop_nearest(list.items[k], names, p->n_channels);
             st = pb_error(b, list.lines[k], "value", "channels",
                           "`%s` is not a channel%s%s%s", list.items[k],
                           near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");
@@ -312,7 +317,7 @@ static lop_status build_design(builder *b, const lop_section *sec, lop_design_sp
             if (strcmp(p->actions[i], label) == 0)
                 a = (long)i;
         if (a < 0) {
-            const char *near = pb_nearest(label, p->actions, p->n_actions);
+            const char *near = lop_nearest(label, p->actions, p->n_actions);
             return pb_error(b, rate ? goal->line : equals->line, sec->name,
                             rate ? "goal" : "equals", "`%s` is not an action%s%s%s", label,
                             near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");

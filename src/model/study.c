@@ -6,16 +6,7 @@
 
 #include "lopside/input/path.h"
 #include "lopside/model/study.h"
-
-/* Writes to buf the shortest decimal text (%.15g to %.17g) that reads back as v. */
-static void study_number(double v, char *buf, size_t size)
-{
-    for (int digits = 15; digits <= 17; digits++) {
-        snprintf(buf, size, "%.*g", digits, v);
-        if (strtod(buf, NULL) == v)
-            return;
-    }
-}
+#include "lopside/util/strutil.h"
 
 double lop_study_axis(double from, double to, size_t n, size_t i)
 {
@@ -33,8 +24,8 @@ lop_problem *lop_study_model_at(lop_config *cfg, const char *const *paths,
     char settings[256] = "";
     size_t used = 0;
     for (size_t k = 0; k < n; k++) {
-        char number[32];
-        study_number(values[k], number, sizeof number);
+        char number[LOP_NUMBER_MAX];
+        lop_shortest_number(values[k], number, sizeof number);
         if (lop_path_set(cfg, paths[k], number, site->section, site->line, err) != LOP_OK)
             return NULL;
         int w = snprintf(settings + used, sizeof settings - used, "%s%s = %s",

@@ -1,5 +1,6 @@
 /* The CSV folder: one RFC 4180 file per table (UTF-8, a header row, `.` as the decimal
- * point, numbers at 17 significant digits, CRLF line ends), and index.csv listing them.
+ * point, numbers as the shortest decimal that reads back to the same double, CRLF line
+ * ends), and index.csv listing them.
  *
  * Safety: every file is written to a temporary beside its target inside the folder; only
  * when all of them (and the run's other outputs) are complete are they renamed into
@@ -18,6 +19,7 @@
 #include "lopside/model/curve_family.h"
 #include "lopside/util/outfile.h"
 #include "lopside/report/report.h"
+#include "lopside/util/strutil.h"
 #include "report_csv_private.h"
 
 /* --- low-level output ------------------------------------------------------------- */
@@ -92,13 +94,13 @@ void csv_str(csv_set *set, const char *s)
 
 void csv_num(csv_set *set, double v)
 {
-    char buf[40];
+    char buf[LOP_NUMBER_MAX];
     if (isnan(v))
         snprintf(buf, sizeof buf, "nan");
     else if (isinf(v))
         snprintf(buf, sizeof buf, "%s", v > 0 ? "inf" : "-inf");
     else
-        snprintf(buf, sizeof buf, "%.17g", v);
+        lop_shortest_number(v, buf, sizeof buf);
     csv_str(set, buf);
 }
 
@@ -593,12 +595,11 @@ static void table_rule_grid(csv_set *set)
         return;
     if (p->estimate ? !rule->grid_estimate : !rule->grid_action)
         return;
-    const lop_channel *c = &p->channels[rule->numeric_channel];
-    char holds[512];
+    char holds[512], measure[160];
+    lop_report_measurement_name(measure, sizeof measure, &p->channels[rule->numeric_channel]);
     snprintf(holds, sizeof holds, "the Bayes %s at every point x of the measurement grid "
-             "of %s%s, for every row of rule_table.csv (row; given describes it)",
-             p->estimate ? "estimate" : "action",
-             c->repeats > 1 ? "the summary of the repeats of " : "", lop_report_channel_name(c));
+             "of %s, for every row of rule_table.csv (row; given describes it)",
+             p->estimate ? "estimate" : "action", measure);
     if (!csv_begin(set, "rule_grid.csv", holds))
         return;
     const char *head[] = {"row", "given", "x", p->estimate ? "estimate" : "action", NULL};
@@ -626,9 +627,12 @@ static void table_switch_points(csv_set *set)
     const lop_rule_result *rule = &set->r->rule;
     if (!set->r->has_rule || !rule->computed || rule->numeric_channel < 0 || p->estimate)
         return;
-    if (!csv_begin(set, "switch_points.csv", "the measurements x where the Bayes action "
-                   "changes, from the action below x to the one above, per row of "
-                   "rule_table.csv (empty when one action is best everywhere)"))
+    char holds[512], measure[160];
+    lop_report_measurement_name(measure, sizeof measure, &p->channels[rule->numeric_channel]);
+    snprintf(holds, sizeof holds, "the values x of %s where the Bayes action changes, from the "
+             "action below x to the one above, per row of rule_table.csv (empty when one action "
+             "is best everywhere)", measure);
+    if (!csv_begin(set, "switch_points.csv", holds))
         return;
     static const char *const head[] = {"row", "given", "x", "from", "to", NULL};
     csv_header(set, head);

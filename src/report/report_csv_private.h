@@ -48,7 +48,7 @@ bool csv_begin(csv_set *set, const char *name, const char *holds);
 /* Writes one field, quoted when it holds a comma, a quote, CR or LF (RFC 4180). */
 void csv_str(csv_set *set, const char *s);
 
-/* Writes a number at full precision (%.17g reads back to the same double); "nan", "inf"
+/* Writes a number as the shortest decimal that reads back to the same double; "nan", "inf"
  * and "-inf" for the numbers a double holds that have no decimal form. */
 void csv_num(csv_set *set, double v);
 

@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "lopside/report/report.h"
+#include "lopside/util/strutil.h"
 #include "report_csv_private.h"
 #include "report_studies.h"
 
@@ -83,11 +84,12 @@ static void table_value_extra(csv_set *set)
     const lop_value_result *v = &set->r->value;
     if (!v->present || !v->n_extra)
         return;
-    char holds[512];
+    char holds[512], cost[LOP_NUMBER_MAX];
     snprintf(holds, sizeof holds, "[value]: per channel and n more measurements beyond the "
-             "design's repeats, the EVSI, their cost (n times %.17g) and the net value, in %s "
+             "design's repeats, the EVSI, their cost (n times %s) and the net value, in %s "
              "per decision; on_the_mean is 1 where the EVSI is a lower bound (decided on the "
-             "mean of the repeats)", p->value.cost, csv_score_unit(p));
+             "mean of the repeats)", lop_shortest_number(p->value.cost, cost, sizeof cost),
+             csv_score_unit(p));
     if (!csv_begin(set, "value_extra.csv", holds))
         return;
     static const char *const head[] = {"channel", "n", "evsi", "cost", "net", "on_the_mean",
@@ -272,11 +274,14 @@ static void path_switches(csv_set *set, const lop_sweep_result *sw, const char *
     if (p->estimate)
         return;
     bool rows = set->r->has_rule && rule->n_columns > 0;
-    char file[256], holds[512];
+    char file[256], holds[512], measure[160] = "the measurement";
+    if (set->r->has_rule && rule->numeric_channel >= 0)
+        lop_report_measurement_name(measure, sizeof measure,
+                                    &p->channels[rule->numeric_channel]);
     snprintf(file, sizeof file, "%s_switch_points.csv", base);
-    snprintf(holds, sizeof holds, "[sweep.%s]: at every point, the measurements where the Bayes "
-             "action changes (switch_point), from the action below to the one above%s",
-             spec->name, rows ? ", per row of rule_table.csv" : "");
+    snprintf(holds, sizeof holds, "[sweep.%s]: at every point, the values of %s where the "
+             "Bayes action changes (switch_point), from the action below to the one above%s",
+             spec->name, measure, rows ? ", per row of rule_table.csv" : "");
     if (!csv_begin(set, file, holds))
         return;
     csv_str(set, "x");
@@ -330,11 +335,12 @@ static void threshold_points(csv_set *set, const lop_sweep_result *sw, const cha
     const lop_problem *p = set->p;
     const lop_sweep_spec *spec = sw->spec;
     bool hits = two_labelled(p), sdt = any_sdt(sw);
-    char file[256], holds[512];
+    char file[256], holds[512], measure[160];
+    lop_report_threshold_measurement(measure, sizeof measure, p);
     snprintf(file, sizeof file, "%s.csv", base);
-    snprintf(holds, sizeof holds, "[sweep.%s]: every threshold x of the numeric channel (the "
-             "second action at or above it)%s: each action's rate%s%s, the expected %s (%s per "
-             "decision)%s", spec->name, spec->y ? " for every y" : "",
+    snprintf(holds, sizeof holds, "[sweep.%s]: every threshold x on %s (the second action at "
+             "or above it)%s: each action's rate%s%s, the expected %s (%s per decision)%s",
+             spec->name, measure, spec->y ? " for every y" : "",
              sw->by_state ? " per state" : "", hits ? ", hit and false-alarm rates" : "",
              lop_problem_orientation(p), csv_score_unit(p),
              sdt ? ", c and beta of signal detection" : "");

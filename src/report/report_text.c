@@ -18,6 +18,30 @@ const char *lop_report_channel_name(const lop_channel *c)
     return c->name[0] ? c->name : "evidence";
 }
 
+void lop_report_measurement_name(char *buf, size_t size, const lop_channel *c)
+{
+    const char *name = lop_report_channel_name(c);
+    if (c->repeats <= 1) {
+        snprintf(buf, size, "%s", name);
+        return;
+    }
+    /* The rule sees one number per decision, the summary the format defines for repeats. */
+    bool counts = c->noise == LOP_NOISE_POISSON || c->noise == LOP_NOISE_BINOMIAL;
+    snprintf(buf, size, "the %s of the %zu %s of %s",
+             c->noise == LOP_NOISE_LOGNORMAL ? "geometric mean" : counts ? "sum" : "mean",
+             c->repeats, counts ? "counts" : "readings", name);
+}
+
+void lop_report_threshold_measurement(char *buf, size_t size, const lop_problem *p)
+{
+    snprintf(buf, size, "the measurement");
+    for (size_t i = 0; i < p->n_channels; i++)
+        if (p->channels[i].kind == LOP_CHANNEL_NOISE) {
+            lop_report_measurement_name(buf, size, &p->channels[i]);
+            return;
+        }
+}
+
 static const char *score_unit(const lop_problem *p)
 {
     return p->score_unit[0] ? p->score_unit : "units";
@@ -190,43 +214,32 @@ static void print_row(FILE *out, const lop_problem *p, const lop_rule_result *ru
     }
 }
 
-static const char *summary_word(const lop_channel *c)
-{
-    if (c->repeats == 1)
-        return "";
-    if (c->noise == LOP_NOISE_LOGNORMAL)
-        return "geometric mean of ";
-    return c->noise == LOP_NOISE_POISSON || c->noise == LOP_NOISE_BINOMIAL ? "sum of "
-                                                                           : "mean of ";
-}
-
 static void print_numeric_rule(FILE *out, const lop_problem *p, const lop_rule_result *rule,
                                size_t row, const char *indent)
 {
-    const lop_channel *c = &p->channels[rule->numeric_channel];
-    const char *name = lop_report_channel_name(c);
-    const char *what = summary_word(c);
+    char name[160];
+    lop_report_measurement_name(name, sizeof name, &p->channels[rule->numeric_channel]);
     const lop_switch_point *prev = NULL;
     for (size_t k = 0; k < rule->n_switches; k++) {
         const lop_switch_point *sp = &rule->switches[k];
         if (sp->row != row)
             continue;
         if (rule->count_grid)
-            fprintf(out, "%s%s%s %s %.10g: %s\n", indent, what, name, prev ? "from" : "below",
+            fprintf(out, "%s%s %s %.10g: %s\n", indent, name, prev ? "from" : "below",
                     prev ? prev->x : sp->x, p->actions[sp->from]);
         else if (prev)
-            fprintf(out, "%s%s%s from %.10g to %.10g: %s\n", indent, what, name, prev->x,
+            fprintf(out, "%s%s from %.10g to %.10g: %s\n", indent, name, prev->x,
                     sp->x, p->actions[sp->from]);
         else
-            fprintf(out, "%s%s%s below %.10g: %s\n", indent, what, name, sp->x,
+            fprintf(out, "%s%s below %.10g: %s\n", indent, name, sp->x,
                     p->actions[sp->from]);
         prev = sp;
     }
     if (prev)
-        fprintf(out, "%s%s%s %s %.10g: %s\n", indent, what, name,
+        fprintf(out, "%s%s %s %.10g: %s\n", indent, name,
                 rule->count_grid ? "from" : "above", prev->x, p->actions[prev->to]);
     else
-        fprintf(out, "%severy %s%s: %s\n", indent, what, name,
+        fprintf(out, "%sany value of %s: %s\n", indent, name,
                 p->actions[rule->grid_action[row * rule->n_grid]]);
 }
 

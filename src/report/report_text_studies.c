@@ -11,6 +11,8 @@
 #define SWEEP_ROWS 25
 /* Rate columns shown at a terminal. */
 #define RATE_COLUMNS 4
+/* Switch points listed per sweep point at a terminal; the rest are counted. */
+#define SWITCHES_LISTED 3
 
 static const char *units(const lop_problem *p)
 {
@@ -164,11 +166,46 @@ static void print_rates(FILE *out, const lop_problem *p, const lop_sweep_result 
         }
 }
 
-static void print_path_sweep(FILE *out, const lop_problem *p, const lop_sweep_result *w)
+/* Writes to buf a point's switch points in order, "-2.20531, 1.20531" ("none" when the
+ * action never changes), the first SWITCHES_LISTED and "and N more" beyond them. */
+static void switch_list(char *buf, size_t size, const lop_sweep_point *pt)
+{
+    size_t at = 0;
+    snprintf(buf, size, "none");
+    for (size_t q = 0; q < pt->n_switches && q < SWITCHES_LISTED && at < size; q++) {
+        int k = snprintf(buf + at, size - at, "%s%.6g", q ? ", " : "", pt->switches[q].x);
+        at += k > 0 ? (size_t)k : 0;
+    }
+    if (pt->n_switches > SWITCHES_LISTED && at < size)
+        snprintf(buf + at, size - at, " and %zu more", pt->n_switches - SWITCHES_LISTED);
+}
+
+/* Says above a path sweep's table what its switch-point column lists. */
+static void print_switch_note(FILE *out, const lop_problem *p, const lop_results *r)
+{
+    if (p->estimate || !r->has_rule || r->rule.numeric_channel < 0)
+        return;
+    char measure[160];
+    lop_report_measurement_name(measure, sizeof measure,
+                                &p->channels[r->rule.numeric_channel]);
+    fprintf(out, "  switch points: where the Bayes action changes along %s, in order%s\n",
+            measure, r->rule.n_columns > 0 ? ", of every outcome row together (the "
+            "CSV and JSON give each one's row)" : "");
+}
+
+static void print_path_sweep(FILE *out, const lop_problem *p, const lop_results *r,
+                             const lop_sweep_result *w)
 {
     const lop_sweep_spec *spec = w->spec;
     size_t n = w->nx * w->ny, shown = n < SWEEP_ROWS ? n : SWEEP_ROWS;
     size_t cols = rate_columns(p, w, p->n_actions);
+    int sw_width = 16;
+    for (size_t k = 0; !p->estimate && k < shown; k++) {
+        char sw[128];
+        switch_list(sw, sizeof sw, &w->points[shown_index(k, shown, n)]);
+        sw_width = (int)strlen(sw) > sw_width ? (int)strlen(sw) : sw_width;
+    }
+    print_switch_note(out, p, r);
     fprintf(out, "  %14.14s", lop_path_key(spec->x));
     if (spec->y)
         fprintf(out, "  %14.14s", lop_path_key(spec->y));
@@ -177,7 +214,7 @@ static void print_path_sweep(FILE *out, const lop_problem *p, const lop_sweep_re
     if (p->estimate)
         fprintf(out, "  %-24s", "estimates within 1%");
     else
-        fprintf(out, "  %-16s", "switch points");
+        fprintf(out, "  %-*s", sw_width, "switch points");
     if (cols)
         print_rate_heads(out, p, w, p->n_actions);
     fputc('\n', out);
@@ -197,12 +234,9 @@ static void print_path_sweep(FILE *out, const lop_problem *p, const lop_sweep_re
                          pt->flatness.range[0].to);
             fprintf(out, "  %14.6g  %-24s", pt->case_estimate, range);
         } else {
-            char sw[64] = "none";
-            if (pt->n_switches == 1)
-                snprintf(sw, sizeof sw, "%.6g", pt->switches[0].x);
-            else if (pt->n_switches > 1)
-                snprintf(sw, sizeof sw, "%.6g +%zu", pt->switches[0].x, pt->n_switches - 1);
-            fprintf(out, "  %14s  %-16s", p->actions[pt->case_action], sw);
+            char sw[128];
+            switch_list(sw, sizeof sw, pt);
+            fprintf(out, "  %14s  %-*s", p->actions[pt->case_action], sw_width, sw);
             if (cols)
                 print_rates(out, p, w, pt->rates, p->n_actions);
         }
@@ -264,17 +298,16 @@ static void print_threshold_row(FILE *out, const lop_problem *p, const lop_sweep
     lop_report_text_flatness(out, p, &row->flatness, "Thresholds", indent);
 }
 
-static void print_sweep(FILE *out, const lop_problem *p, const lop_sweep_result *w)
+static void print_sweep(FILE *out, const lop_problem *p, const lop_results *r,
+                        const lop_sweep_result *w)
 {
     const lop_sweep_spec *spec = w->spec;
     if (w->threshold) {
-        const lop_channel *c = NULL;
-        for (size_t i = 0; i < p->n_channels && !c; i++)
-            if (p->channels[i].kind == LOP_CHANNEL_NOISE)
-                c = &p->channels[i];
+        char measure[160];
+        lop_report_threshold_measurement(measure, sizeof measure, p);
         fprintf(out, "\nSweep %s: thresholds on %s from %.6g to %.6g (%zu points); %s at or "
                      "above the threshold, %s below\n",
-                spec->name, lop_report_channel_name(c), spec->x_from, spec->x_to, w->nx,
+                spec->name, measure, spec->x_from, spec->x_to, w->nx,
                 p->actions[1], p->actions[0]);
         for (size_t j = 0; j < w->ny; j++)
             print_threshold_row(out, p, w, j);
@@ -286,7 +319,7 @@ static void print_sweep(FILE *out, const lop_problem *p, const lop_sweep_result 
         fprintf(out, " by %s from %.6g to %.6g (%zu points)", spec->y, spec->y_from, spec->y_to,
                 spec->y_points);
     fprintf(out, "; scores in %s\n", units(p));
-    print_path_sweep(out, p, w);
+    print_path_sweep(out, p, r, w);
 }
 
 /* A goal in words: "the switch point", "the rate of choosing say_yes", ... */
@@ -352,7 +385,7 @@ void lop_report_text_studies(FILE *out, const lop_problem *p, const lop_results 
     if (r->value.present)
         print_value(out, p, r);
     for (size_t k = 0; k < r->n_sweeps; k++)
-        print_sweep(out, p, &r->sweeps[k]);
+        print_sweep(out, p, r, &r->sweeps[k]);
     for (size_t k = 0; k < r->n_designs; k++)
         print_design(out, p, &r->designs[k]);
 }

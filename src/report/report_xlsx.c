@@ -63,7 +63,7 @@ static void rule_switch_points(xlsx_writer *w, lxw_worksheet *ws, rule_layout *L
     xw_put_text(w, ws, L->header - 1, c0, "Switch points", w->f.heading);
     bool rows = rule->n_columns > 0;
     char name[160], given[1024];
-    xw_measurement_name(name, sizeof name, c);
+    lop_report_measurement_name(name, sizeof name, c);
     xw_names head = {0};
     if (rows) {
         xw_names_add(w, &head, "row");
@@ -187,7 +187,7 @@ static void rule_grid(xlsx_writer *w, lxw_worksheet *ws, rule_layout *L)
     lxw_col_t c0 = L->next_col;
     xw_put_text(w, ws, L->header - 1, c0, "The Bayes action at each measurement", w->f.heading);
     char name[160], given[1024];
-    xw_measurement_name(name, sizeof name, c);
+    lop_report_measurement_name(name, sizeof name, c);
     xw_names head = {0};
     if (with_rows) {
         xw_names_add(w, &head, "row");
@@ -267,7 +267,7 @@ static void rule_chart(xlsx_writer *w, lxw_worksheet *ws, rule_layout *L)
                 chart_series_set_name(s, "Bayes action");
             }
         }
-        xw_measurement_name(title, sizeof title, xw_numeric_channel(p, rule));
+        lop_report_measurement_name(title, sizeof title, xw_numeric_channel(p, rule));
         chart_axis_set_name(chart->x_axis, title);
         if (p->estimate) {
             chart_axis_set_name(chart->y_axis, "Bayes estimate");

@@ -421,14 +421,6 @@ const lop_channel *xw_numeric_channel(const lop_problem *p, const lop_rule_resul
     return rule->numeric_channel >= 0 ? &p->channels[rule->numeric_channel] : NULL;
 }
 
-/* The measurement's name: "ear", or "mean of ear (4 repeats)". */
-void xw_measurement_name(char *buf, size_t size, const lop_channel *c)
-{
-    if (c->repeats > 1)
-        snprintf(buf, size, "mean of %s (%zu repeats)", lop_report_channel_name(c), c->repeats);
-    else
-        snprintf(buf, size, "%s", lop_report_channel_name(c));
-}
 void xw_put_maybe(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row, lxw_col_t col, double v,
                   lxw_format *fmt)
 {

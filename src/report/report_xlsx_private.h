@@ -170,8 +170,6 @@ lxw_row_t xw_info_text(xlsx_writer *w, lxw_worksheet *ws, lxw_row_t row, const c
 /* Returns the channel the rule's measurement grid is on, NULL when none. */
 const lop_channel *xw_numeric_channel(const lop_problem *p, const lop_rule_result *rule);
 
-/* Writes the measurement's name to buf: "ear", or "mean of ear (4 repeats)". */
-void xw_measurement_name(char *buf, size_t size, const lop_channel *c);
 
 /* Returns a new chart of `type`, NULL (failure recorded) when memory runs out. */
 lxw_chart *xw_chart(xlsx_writer *w, uint8_t type, const char *what);

@@ -58,7 +58,7 @@ static const char *rule_decides(const lop_problem *p, size_t k, char *buf, size_
         const lop_channel *c = threshold_channel(p);
         char name[160] = "the measurement";
         if (c)
-            xw_measurement_name(name, sizeof name, c);
+            lop_report_measurement_name(name, sizeof name, c);
         snprintf(buf, size, "%s when %s is at or above %.10g, else %s", p->actions[1], name,
                  rule->at, p->actions[0]);
         return buf;

@@ -76,16 +76,6 @@ static void rate_header(xlsx_writer *w, xw_names *head, const lop_problem *p,
         }
 }
 
-static void threshold_measurement(char *buf, size_t size, const lop_problem *p)
-{
-    snprintf(buf, size, "the measurement");
-    for (size_t i = 0; i < p->n_channels; i++)
-        if (p->channels[i].kind == LOP_CHANNEL_NOISE) {
-            xw_measurement_name(buf, size, &p->channels[i]);
-            return;
-        }
-}
-
 /* --- charts ----------------------------------------------------------------------------- */
 
 /* Inserts chart at the next place of the chart column. */
@@ -208,7 +198,7 @@ static void path_table(sweep_sheet *S)
     const lop_channel *c = xw_numeric_channel(p, &w->r->rule);
     char measure[160] = "measurement";
     if (c)
-        xw_measurement_name(measure, sizeof measure, c);
+        lop_report_measurement_name(measure, sizeof measure, c);
     bool rows = w->r->has_rule && w->r->rule.n_columns > 0;
     size_t most = p->estimate ? 0 : most_switches(sw, S->shown);
     S->switch_table = most > 0 && (rows || most > SWITCH_COLUMNS_MAX);
@@ -422,7 +412,7 @@ static lxw_row_t threshold_info(sweep_sheet *S, lxw_row_t row)
     const lop_threshold_row *tr = &S->sw->rows[0];
     const char *unit = xw_score_unit(p);
     char measure[160], label[256], per[96];
-    threshold_measurement(measure, sizeof measure, p);
+    lop_report_threshold_measurement(measure, sizeof measure, p);
     snprintf(per, sizeof per, "%s per decision", unit);
     S->info_threshold = row;
     snprintf(label, sizeof label, "Bayes threshold (%s)", measure);
@@ -571,7 +561,7 @@ static void threshold_table(sweep_sheet *S)
     for (size_t j = 0; j < sw->ny; j++)
         sdt |= sw->rows[j].sdt;
     char measure[160];
-    threshold_measurement(measure, sizeof measure, p);
+    lop_report_threshold_measurement(measure, sizeof measure, p);
     xw_names head = {0};
     lxw_col_t col = 0;
     S->col_x = col++;
@@ -638,7 +628,7 @@ static void threshold_charts(sweep_sheet *S)
     const lop_problem *p = w->p;
     const lop_sweep_result *sw = S->sw;
     char title[256], measure[160], y_name[160];
-    threshold_measurement(measure, sizeof measure, p);
+    lop_report_threshold_measurement(measure, sizeof measure, p);
     snprintf(y_name, sizeof y_name, "%s per decision", xw_score_unit(p));
     char *names[XW_SERIES_MAX];
     lxw_col_t cols[XW_SERIES_MAX];
@@ -775,7 +765,7 @@ void xw_sheet_sweep(xlsx_writer *w, lxw_worksheet *ws, size_t k, const char *she
             S.shown = XW_ROWS_MAX;
     }
     char measure[160];
-    threshold_measurement(measure, sizeof measure, p);
+    lop_report_threshold_measurement(measure, sizeof measure, p);
     if (sw->threshold)
         xw_put_textf(w, ws, 0, 0, w->f.title, "Sweep %s: every threshold on %s from %.6g to "
                      "%.6g (%zu thresholds)", spec->name, measure, spec->x_from, spec->x_to,

@@ -1,5 +1,7 @@
 #include <ctype.h>
 #include <errno.h>
+#include <float.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -137,4 +139,33 @@ bool lop_close_enough(size_t d, size_t len)
 {
     size_t limit = len / 3 > 2 ? len / 3 : 2;
     return d <= limit && d < len;
+}
+
+const char *lop_nearest(const char *word, char **choices, size_t n)
+{
+    const char *best = NULL;
+    size_t best_d = (size_t)-1;
+    for (size_t i = 0; i < n; i++) {
+        size_t d = lop_edit_distance(word, choices[i]);
+        if (d < best_d) {
+            best_d = d;
+            best = choices[i];
+        }
+    }
+    return best && lop_close_enough(best_d, strlen(word)) ? best : NULL;
+}
+
+char *lop_shortest_number(double v, char *buf, size_t size)
+{
+    /* 15 digits are not always enough to tell doubles apart, 17 always are; the first that
+     * reads back is the shortest round trip (0.05, not 0.050000000000000003), since %.15g
+     * drops trailing zeros and a normal double's half-ulp is below a tenth of the 15-digit
+     * spacing. Subnormals hold fewer digits (5e-324), so they try from one digit up. */
+    int first = v != 0 && fabs(v) < DBL_MIN ? 1 : 15;
+    for (int digits = first; digits <= 17; digits++) {
+        snprintf(buf, size, "%.*g", digits, v);
+        if (strtod(buf, NULL) == v)
+            break;
+    }
+    return buf;
 }

@@ -26,17 +26,26 @@ numpy or a closed form named beside it, never from an earlier lopside output:
    states with a gaussian prior, where P(long) is the sum over the grid's states of normal
    tails beyond the switch point (and close to the continuous predictive tail). The grid
    sweep gives the same numbers on one thread as on two.
+6. What a sweep's measurement is called: with 3 repeats of unequal-variance evidence, the
+   text, CSV and workbook name the mean of the readings, and every point's switch points
+   are listed (text at 6 digits, CSV in full) where the two roots of the log-likelihood
+   ratio's quadratic put them.
 
 Run from the repository root:
     LOPSIDE=build/lopside /usr/bin/python3 tests/reference/check_studies.py
 Prints one line per check group and ends with `N passed, M failed`; exits 1 on any failure.
 """
 
+import csv
 import functools
 import math
+import os
+import re
+import subprocess
 import sys
 
 import numpy as np
+import openpyxl
 from scipy import integrate, optimize, stats
 
 sys.dont_write_bytecode = True  # no __pycache__ beside the scripts
@@ -384,13 +393,92 @@ def check_grid_rates(folder, tally):
                         pt["rates"]["long"], stats.norm.sf(x, 800, sd), 1e-5, f"x={pt['x']}")
 
 
+def unequal_roots(ps, mu, s0, s1, payoff):
+    """The two measurements where saying yes starts and stops paying, noise N(0, s0) and
+    signal N(mu, s1): ps (vh + cm) phi(x; mu, s1) = (1 - ps) (vc + cf) phi(x; 0, s0), a
+    quadratic in x once logs are taken (unequal-variance detection)."""
+    vc, cm, cf, vh = payoff
+    lhs = math.log(ps * (vh + cm) / s1)
+    rhs = math.log((1 - ps) * (vc + cf) / s0)
+    a = 1 / (2 * s0 ** 2) - 1 / (2 * s1 ** 2)
+    b = mu / s1 ** 2
+    c = -mu ** 2 / (2 * s1 ** 2) + lhs - rhs
+    return sorted(float(r.real) for r in np.roots([a, b, c]))
+
+
+def check_sweep_labels(folder, tally):
+    """What the writers call a sweep's measurement and its switch points. The rule of 3
+    repeats decides on their mean, so text, CSV and workbook must say so, not name the
+    channel alone; a point's switch points are listed in full (once written `-2.2 +1`),
+    each where the closed form of unequal-variance detection puts it."""
+    ps, mu, sds, repeats = 0.3, 1.5, (1.0, 2.0), 3
+    text = ("[problem]\ntitle = labels\nscore_unit = points\n[states]\nlabels = noise, signal\n"
+            f"[prior]\nweights = {1 - ps!r}, {ps!r}\n[evidence.ear]\nnoise = gaussian\n"
+            f"mean = 0, {mu!r}\nsd = {sds[0]!r}, {sds[1]!r}\nrepeats = {repeats}\n"
+            "[actions]\nlabels = say_no, say_yes\n[payoff]\nsay_no = 1, -2\nsay_yes = -3, 4\n"
+            "[sweep.pen]\nx = payoff.say_yes[1]\nx_from = -10\nx_to = -1\nx_points = 4\n"
+            "[sweep.crit]\nx = rule.threshold\nx_from = -0.5\nx_to = 2.5\nx_points = 4\n")
+    ini = os.path.join(folder, "labels.ini")
+    with open(ini, "w", encoding="utf-8") as f:
+        f.write(text)
+    res = subprocess.run([refkit.LOPSIDE, "run", ini, "--csv", os.path.join(folder, "labels"),
+                          "--workbook", os.path.join(folder, "labels.xlsx")],
+                         capture_output=True, text=True)
+    group = "sweep labels: the measurement named as the rule reads it"
+    if not tally.record(group, res.returncode == 0, res.stderr.strip()):
+        return
+    measure = "the mean of the 3 readings of ear"
+    s0, s1 = (sd / math.sqrt(repeats) for sd in sds)
+    want = {x: unequal_roots(ps, mu, s0, s1, (1.0, 2.0, -x, 4.0)) for x in (-10, -7, -4, -1)}
+    out = res.stdout
+    tally.record(group, f"Sweep crit: thresholds on {measure} from" in out, "text threshold sweep")
+    tally.record(group, f"switch points: where the Bayes action changes along {measure}" in out,
+                 "text path sweep")
+    # Text: each point's row lists both switch points (6 significant digits).
+    group = "sweep labels: every switch point listed, at the closed form's place"
+    for x, roots in want.items():
+        rows = [ln for ln in out.splitlines()
+                if ln.strip().startswith(f"{x} ") and ("say_no" in ln or "say_yes" in ln)]
+        if not tally.record(group, len(rows) == 1, f"text row of x = {x}: {rows}"):
+            continue
+        cells = re.split(r"\s{2,}", rows[0].strip())
+        got = [float(v) for v in cells[4].split(", ")]
+        tally.record(group, len(got) == 2 and all(abs(g - r) <= 5e-6 * max(1, abs(r))
+                                                  for g, r in zip(got, roots)),
+                     f"text x = {x}: {cells[4]!r}, closed form {roots}")
+    # CSV: the switch points at full precision; index.csv says what they lie on.
+    folder_csv = os.path.join(folder, "labels")
+    with open(os.path.join(folder_csv, "sweep_pen_switch_points.csv"), newline="") as f:
+        rows = list(csv.DictReader(f))
+    for x, roots in want.items():
+        got = sorted(float(r["switch_point"]) for r in rows if float(r["x"]) == x)
+        for g, r in zip(got, roots):
+            tally.close_rel(group, g, r, ROOT_TOL, f"CSV x = {x}")
+        tally.record(group, len(got) == 2, f"CSV x = {x}: {got}")
+    with open(os.path.join(folder_csv, "index.csv"), newline="") as f:
+        holds = {r["file"]: r["holds"] for r in csv.DictReader(f)}
+    group = "sweep labels: the measurement named as the rule reads it"
+    tally.record(group, f"the values of {measure} where" in holds["sweep_pen_switch_points.csv"],
+                 "index.csv, sweep_pen_switch_points.csv")
+    tally.record(group, f"every threshold x on {measure}" in holds["sweep_crit.csv"],
+                 "index.csv, sweep_crit.csv")
+    # Workbook: the threshold sheet's title and the path sweep's switch-point columns.
+    wb = openpyxl.load_workbook(os.path.join(folder, "labels.xlsx"))
+    tally.record(group, f"every threshold on {measure} from" in wb["crit"]["A1"].value,
+                 f"workbook title {wb['crit']['A1'].value!r}")
+    heads = [c.value for r in wb["pen"].iter_rows() for c in r
+             if isinstance(c.value, str) and c.value.startswith("switch point ")]
+    tally.record(group, heads[:2] == [f"switch point 1 ({measure})",
+                                      f"switch point 2 ({measure})"], f"workbook heads {heads}")
+
+
 def main():
     rng = np.random.default_rng(SEED)   # one stream, drawn from in this order
     checks = [functools.partial(check_thresholds, rng=rng), check_macmillan_creelman,
               functools.partial(check_designs, rng=rng),
               functools.partial(check_value_detection, rng=rng), check_value_normal,
               functools.partial(check_value_properties, rng=rng), check_count_rates,
-              check_grid_rates]
+              check_grid_rates, check_sweep_labels]
     return refkit.main("lopside_studies_", checks, tally=refkit.Tally(max_details=5))
 
 

@@ -30,7 +30,10 @@ estimate's sweep, and studies whose rule cannot be computed), it checks:
 
 Tolerances: libxlsxwriter stores numbers with 16 significant digits (%.16G), so cached values
 read back within 2 units of the 16th digit: relative 1e-15 (absolute 1e-300 for zeros). The CSV
-files use %.17g, which reads back to the same double as the JSON: compared exactly.
+files write the shortest decimal that reads back to the same double as the JSON: compared
+exactly, and every numeric cell (and every number in index.csv's descriptions) must be the
+decimal of Python's float repr, which is the shortest round trip (0.05, never
+0.050000000000000003).
 
 Run from the repository root: LOPSIDE=build/lopside /usr/bin/python3 tests/reference/check_workbook.py
 Ends with `N passed, M failed`; exits 1 on any failure.
@@ -38,11 +41,13 @@ Ends with `N passed, M failed`; exits 1 on any failure.
 
 import configparser
 import csv
+import decimal
 import glob
 import hashlib
 import json
 import math
 import os
+import re
 import resource
 import shutil
 import signal
@@ -792,14 +797,39 @@ def check_csv(c, name, j, folder):
     studies.check_study_csv(c, name, j, folder, files, read_csv)
 
 
+NUMBER_IN_TEXT = re.compile(r"(?<![\w.])[-+]?\d+\.\d+(?:[eE][-+]?\d+)?(?![\w.])")
+
+
+def not_shortest(cells):
+    """The cells that read as finite numbers but are not the shortest decimal of their double.
+
+    Python's repr of a float is the shortest text that reads back to it; Decimal compares the
+    two decimals' exact values, so 0.05 matches 0.05 and 3 matches 3.0, while
+    0.050000000000000003 (the same double) does not."""
+    bad = []
+    for cell in cells:
+        try:
+            v = float(cell)
+        except ValueError:
+            continue
+        if math.isfinite(v) and decimal.Decimal(cell) != decimal.Decimal(repr(v)):
+            bad.append(cell)
+    return bad
+
+
 def check_index(c, name, folder, files):
     ih, irows = read_csv(os.path.join(folder, "index.csv"))
     c.equal(f"{name}: index.csv header", ih, ["file", "rows", "holds"])
     listed = sorted([r[0] for r in irows] + ["index.csv"])
     c.equal(f"{name}: index.csv lists every file", listed, files)
     for r in irows:
+        c.equal(f"{name}: index.csv numbers in the description of {r[0]} are shortest",
+                not_shortest(NUMBER_IN_TEXT.findall(r[2])), [])
+    for r in irows:
         _, data = read_csv(os.path.join(folder, r[0]))
         c.equal(f"{name}: {r[0]} row count in index", int(r[1]), len(data))
+        c.equal(f"{name}: {r[0]} numbers are the shortest decimals",
+                not_shortest(cell for row in data for cell in row)[:5], [])
         with open(os.path.join(folder, r[0]), "rb") as f:
             raw = f.read()
         c.ok(f"{name}: {r[0]} has CRLF line ends", raw.endswith(b"\r\n") and

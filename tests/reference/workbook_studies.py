@@ -4,8 +4,8 @@ run. Used by check_workbook.py, which owns the runs and the Checks object `c`.
 
 Tolerances: the workbook's numbers are stored by libxlsxwriter with 16 significant digits
 (%.16G), so they read back within 2 units of the 16th digit: relative 1e-15 (c.close's
-default). The CSV files use %.17g, which reads back to the same double as the JSON: compared
-exactly. Nothing is compared with lopside's own numbers from another source: the JSON is the
+default). The CSV files write the shortest decimal that reads back to the same double as the
+JSON: compared exactly. Nothing is compared with lopside's own numbers from another source: the JSON is the
 contract, and check_studies.py checks the JSON against scipy.
 """
 

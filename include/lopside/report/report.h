@@ -13,6 +13,15 @@
 /* Returns the name a channel is shown by: NAME of [evidence.NAME], or "evidence". */
 const char *lop_report_channel_name(const lop_channel *c);
 
+/* Writes to buf what a numeric channel's rule reads: the channel's name with one repeat,
+ * else its summary, "the mean of the 3 readings of ear" ("geometric mean" for lognormal
+ * noise, "sum of the 3 counts" for poisson and binomial). */
+void lop_report_measurement_name(char *buf, size_t size, const lop_channel *c);
+
+/* Writes to buf the measurement a threshold sweep's thresholds lie on: the name (as
+ * lop_report_measurement_name) of the problem's numeric channel, or "the measurement". */
+void lop_report_threshold_measurement(char *buf, size_t size, const lop_problem *p);
+
 /* Writes the report for a person at a terminal to out. */
 void lop_report_text(FILE *out, const lop_problem *p, const lop_results *r,
                      const lop_provenance *prov);

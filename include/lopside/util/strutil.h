@@ -26,4 +26,14 @@ size_t lop_edit_distance(const char *a, const char *b);
 /* Returns true when a misspelling of length len is close enough to suggest at distance d. */
 bool lop_close_enough(size_t d, size_t len);
 
+/* Returns the nearest of the n choices to word when close enough to suggest, else NULL. */
+const char *lop_nearest(const char *word, char **choices, size_t n);
+
+/* Room for any text lop_shortest_number writes, with its NUL. */
+#define LOP_NUMBER_MAX 32
+
+/* Returns buf after writing the shortest of v's %.15g, %.16g and %.17g texts that strtod
+ * reads back as v (the finite v only; C-locale decimal point). */
+char *lop_shortest_number(double v, char *buf, size_t size);
+
 #endif

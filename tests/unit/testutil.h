@@ -58,5 +58,6 @@ Suite *suite_sweep(void);
 Suite *suite_design(void);
 Suite *suite_simulate(void);
 Suite *suite_evidence(void);
+Suite *suite_rates(void);
 
 #endif

@@ -54,6 +54,7 @@ int main(void)
     srunner_add_suite(runner, suite_simulate());
     srunner_add_suite(runner, suite_evidence());
     srunner_add_suite(runner, suite_rates());
+    srunner_add_suite(runner, suite_flatness());
     srunner_run_all(runner, CK_NORMAL);
     int run = srunner_ntests_run(runner);
     int failed = srunner_ntests_failed(runner);

@@ -59,5 +59,6 @@ Suite *suite_design(void);
 Suite *suite_simulate(void);
 Suite *suite_evidence(void);
 Suite *suite_rates(void);
+Suite *suite_flatness(void);
 
 #endif

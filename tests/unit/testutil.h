@@ -60,5 +60,6 @@ Suite *suite_simulate(void);
 Suite *suite_evidence(void);
 Suite *suite_rates(void);
 Suite *suite_flatness(void);
+Suite *suite_keys(void);
 
 #endif

@@ -61,5 +61,6 @@ Suite *suite_evidence(void);
 Suite *suite_rates(void);
 Suite *suite_flatness(void);
 Suite *suite_keys(void);
+Suite *suite_path(void);
 
 #endif

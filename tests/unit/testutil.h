@@ -62,5 +62,6 @@ Suite *suite_rates(void);
 Suite *suite_flatness(void);
 Suite *suite_keys(void);
 Suite *suite_path(void);
+Suite *suite_response(void);
 
 #endif

@@ -127,12 +127,7 @@ START_TEST(bad_paths_are_errors_at_the_giving_line)
         lop_config *cfg = test_config(file);
         lop_error err;
         ck_assert_int_eq(set(cfg, cases[i][0], "1", &err), LOP_EINPUT);
-        ck_assert_str_eq(err.file, "test.ini");
-        ck_assert_int_eq(err.line, 20);
-        ck_assert_str_eq(err.section, "sweep.s");
-        ck_assert_str_eq(err.key, cases[i][0]);
-        ck_assert_msg(strstr(err.message, cases[i][1]) != NULL, "%s: %s", cases[i][0],
-                      err.message);
+        test_check_error(&err, 20, "sweep.s", cases[i][0], cases[i][1]);
         assert_only_changed(cfg, NULL, NULL, NULL);
         lop_config_free(cfg);
     }

@@ -150,13 +150,7 @@ START_TEST(bad_responses_are_errors_at_their_lines)
         lop_error err;
         ck_assert_int_eq(read_response(cases[i].keys, &r, &err), LOP_EINPUT);
         lop_response_clear(&r);
-        ck_assert_str_eq(err.file, "test.ini");
-        ck_assert_msg(err.line == cases[i].line, "case %zu: line %d: %s", i, err.line,
-                      err.message);
-        ck_assert_str_eq(err.section, "evidence");
-        ck_assert_str_eq(err.key, cases[i].key);
-        ck_assert_msg(strstr(err.message, cases[i].message) != NULL, "case %zu: %s", i,
-                      err.message);
+        test_check_error(&err, cases[i].line, "evidence", cases[i].key, cases[i].message);
     }
 }
 END_TEST

@@ -1,5 +1,6 @@
-/* Helpers shared by the unit tests beyond those of main.c: configs from text and the
- * equal-variance detection problem with its closed-form expected loss. */
+/* Helpers shared by the unit tests beyond those of main.c: configs from text, input
+ * errors checked field by field, and the equal-variance detection problem with its
+ * closed-form expected loss. */
 #include <stdio.h>
 
 #include <gsl/gsl_cdf.h>
@@ -12,6 +13,21 @@ lop_config *test_config(const char *text)
     lop_config *cfg = lop_config_read_text("test.ini", text, strlen(text), &err);
     ck_assert_msg(cfg != NULL, "config did not read: %s", err.message);
     return cfg;
+}
+
+void test_check_error(const lop_error *err, int line, const char *section, const char *key,
+                      const char *fragment)
+{
+    char text[1024], want[256];
+    lop_error_format(err, text, sizeof text);
+    ck_assert_msg(err->status == LOP_EINPUT, "not an input error: %s", text);
+    ck_assert_msg(strcmp(err->file, "test.ini") == 0, "file: %s", text);
+    ck_assert_msg(err->line == line, "line %d expected: %s", line, text);
+    ck_assert_msg(strcmp(err->section, section) == 0, "section [%s] expected: %s", section, text);
+    ck_assert_msg(strcmp(err->key, key) == 0, "key `%s` expected: %s", key, text);
+    ck_assert_msg(strstr(err->message, fragment) != NULL, "`%s` expected: %s", fragment, text);
+    snprintf(want, sizeof want, "test.ini:%d: [%s] ", line, section);
+    ck_assert_msg(strncmp(text, want, strlen(want)) == 0, "form `%s...` expected: %s", want, text);
 }
 
 lop_problem *test_detection(double p_signal, double dprime, const double loss[4],

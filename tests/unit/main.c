@@ -57,6 +57,7 @@ int main(void)
     srunner_add_suite(runner, suite_flatness());
     srunner_add_suite(runner, suite_keys());
     srunner_add_suite(runner, suite_path());
+    srunner_add_suite(runner, suite_problem());
     srunner_add_suite(runner, suite_response());
     srunner_run_all(runner, CK_NORMAL);
     int run = srunner_ntests_run(runner);

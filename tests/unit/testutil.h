@@ -30,6 +30,11 @@ lop_results *test_solve(const lop_problem *p);
 /* Returns the config read from text (name test.ini); fails the test when it does not read. */
 lop_config *test_config(const char *text);
 
+/* Checks that err is an input error of test.ini at line, [section] key, whose message
+ * holds fragment, formatted `test.ini:LINE: [section] ...`; fails the test otherwise. */
+void test_check_error(const lop_error *err, int line, const char *section, const char *key,
+                      const char *fragment);
+
 /* Returns the yes/no detection problem (states noise, signal; actions say_no, say_yes):
  * P(signal) p_signal, one gaussian reading N(0, 1) or N(d', 1), loss = {no|noise,
  * no|signal, yes|noise, yes|signal}, extra lines appended to [evidence.ear]. */
@@ -62,6 +67,7 @@ Suite *suite_rates(void);
 Suite *suite_flatness(void);
 Suite *suite_keys(void);
 Suite *suite_path(void);
+Suite *suite_problem(void);
 Suite *suite_response(void);
 
 #endif

@@ -52,6 +52,13 @@ int main(void)
     srunner_add_suite(runner, suite_sweep());
     srunner_add_suite(runner, suite_design());
     srunner_add_suite(runner, suite_simulate());
+    srunner_add_suite(runner, suite_evidence());
+    srunner_add_suite(runner, suite_rates());
+    srunner_add_suite(runner, suite_flatness());
+    srunner_add_suite(runner, suite_keys());
+    srunner_add_suite(runner, suite_path());
+    srunner_add_suite(runner, suite_problem());
+    srunner_add_suite(runner, suite_response());
     srunner_run_all(runner, CK_NORMAL);
     int run = srunner_ntests_run(runner);
     int failed = srunner_ntests_failed(runner);

@@ -70,52 +70,96 @@ static void suggest_key(const lop_config *cfg, const char *sec, const char *key,
     free(keys);
 }
 
-lop_status lop_path_set(lop_config *cfg, const char *path, const char *value,
-                        const char *where, int line, lop_error *err)
+/* Reports an input error about path text at site; the key of the error is the site's
+ * key, so a sweep's error reads "[sweep.penalty] x: the path `...` ...". */
+static lop_status path_error(const lop_config *cfg, const lop_path_site *site, const char *text,
+                             lop_error *err, const char *what, const char *near)
 {
-    char near[256];
-    const lop_section *sec = match_section(cfg, path);
+    return lop_error_input(err, cfg->path, site->line, site->section, site->key,
+                           "the path `%s` %s%s%s%s", text, what, near[0] ? "; did you mean `" : "",
+                           near, near[0] ? "`?" : "");
+}
+
+lop_status lop_path_parse(const lop_config *cfg, const char *text, const lop_path_site *site,
+                          lop_path *out, lop_error *err)
+{
+    char near[256] = "";
+    const lop_section *sec = match_section(cfg, text);
     if (!sec) {
-        suggest_section(cfg, path, near, sizeof near);
-        return lop_error_input(err, cfg->path, line, where, path,
-                               "the path names no section of the file (a path is "
-                               "`section.key` or `section.key[i]`)%s%s%s",
-                               near[0] ? "; did you mean `" : "", near, near[0] ? "`?" : "");
+        suggest_section(cfg, text, near, sizeof near);
+        return path_error(cfg, site, text, err,
+                          "names no section of the file (a path is `section.key` or "
+                          "`section.key[i]`)", near);
     }
-    char key[128];
-    const char *k = path + strlen(sec->name) + 1;
+    const char *k = text + strlen(sec->name) + 1;
     size_t klen = strcspn(k, "[");
-    snprintf(key, sizeof key, "%.*s", (int)klen, k);
-    long index = 0;
+    if (klen == 0)
+        return path_error(cfg, site, text, err, "names no key", near);
+    if (klen >= LOP_PATH_PART || strlen(sec->name) >= LOP_PATH_PART)
+        return path_error(cfg, site, text, err, "is too long", near);
+    snprintf(out->section, sizeof out->section, "%s", sec->name);
+    snprintf(out->key, sizeof out->key, "%.*s", (int)klen, k);
+    out->index = 0;
     if (k[klen] == '[') {
-        char *end;
-        index = strtol(k + klen + 1, &end, 10);
-        if (index < 1 || end[0] != ']' || end[1] != '\0')
-            return lop_error_input(err, cfg->path, line, where, path,
-                                   "expected `key[i]` with i a whole number from 1");
+        /* digits only: no sign, no spaces */
+        const char *digits = k + klen + 1;
+        size_t nd = strspn(digits, "0123456789");
+        long index = nd ? strtol(digits, NULL, 10) : 0;
+        if (nd == 0 || nd > 9 || index < 1 || strcmp(digits + nd, "]") != 0)
+            return path_error(cfg, site, text, err,
+                              "is not `key[i]` with i a whole number from 1", near);
+        out->index = (size_t)index;
+        if (!lop_config_find(cfg, out->section, out->key)) {
+            suggest_key(cfg, out->section, out->key, k + klen, near, sizeof near);
+            char what[LOP_PATH_PART * 2 + 64];
+            snprintf(what, sizeof what, "names no entry: [%s] has no key `%s`", out->section,
+                     out->key);
+            return path_error(cfg, site, text, err, what, near);
+        }
     }
-    if (key[0] == '\0')
-        return lop_error_input(err, cfg->path, line, where, path, "the path names no key");
-    const lop_entry *e = lop_config_find(cfg, sec->name, key);
-    if (!index)
-        return lop_config_set(cfg, sec->name, key, value, line) == 0
+    return LOP_OK;
+}
+
+const char *lop_path_label(const lop_path *path, char *buf, size_t size)
+{
+    if (path->index)
+        snprintf(buf, size, "%s[%zu]", path->key, path->index);
+    else
+        snprintf(buf, size, "%s", path->key);
+    return buf;
+}
+
+const char *lop_path_text(const lop_path *path, char *buf, size_t size)
+{
+    char label[LOP_PATH_PART + 24];
+    snprintf(buf, size, "%s.%s", path->section, lop_path_label(path, label, sizeof label));
+    return buf;
+}
+
+lop_status lop_path_set(lop_config *cfg, const lop_path *path, const char *value,
+                        const lop_path_site *site, lop_error *err)
+{
+    const char *sec = path->section, *key = path->key;
+    if (!path->index)
+        return lop_config_set(cfg, sec, key, value, site->line) == 0
                    ? LOP_OK
                    : lop_error_run(err, "out of memory");
-    if (!e) {
-        suggest_key(cfg, sec->name, key, k + klen, near, sizeof near);
-        return lop_error_input(err, cfg->path, line, where, path,
-                               "[%s] has no key `%s` to take entry %ld of%s%s%s", sec->name,
-                               key, index, near[0] ? "; did you mean `" : "", near,
-                               near[0] ? "`?" : "");
-    }
+    const lop_entry *e = lop_config_find(cfg, sec, key);
+    char text[LOP_PATH_PART * 2 + 32];
+    lop_path_text(path, text, sizeof text);
+    if (!e)
+        return path_error(cfg, site, text, err, "names no entry", "");
     lop_list list;
     if (lop_parse_list(cfg, e, &list, err) != LOP_OK)
         return err->status;
-    if ((size_t)index > list.n) {
+    size_t index = path->index;
+    if (index > list.n) {
         size_t n = list.n;
         lop_list_free(&list);
-        return lop_error_input(err, cfg->path, line, where, path,
-                               "[%s] %s has %zu entries, not %ld", sec->name, key, n, index);
+        char what[3 * LOP_PATH_PART + 96];
+        snprintf(what, sizeof what, "names entry %zu, but [%s] %s has %zu %s", index, sec, key,
+                 n, n == 1 ? "entry" : "entries");
+        return path_error(cfg, site, text, err, what, "");
     }
     size_t total = strlen(value) + 1;
     for (size_t i = 0; i < list.n; i++)
@@ -129,20 +173,10 @@ lop_status lop_path_set(lop_config *cfg, const char *path, const char *value,
     for (size_t i = 0; i < list.n; i++) {
         if (i)
             strcat(joined, ", ");
-        strcat(joined, (long)i + 1 == index ? value : list.items[i]);
+        strcat(joined, i + 1 == index ? value : list.items[i]);
     }
     lop_list_free(&list);
-    int rc = lop_config_set(cfg, sec->name, key, joined, e->line);
+    int rc = lop_config_set(cfg, sec, key, joined, e->line);
     free(joined);
     return rc == 0 ? LOP_OK : lop_error_run(err, "out of memory");
-}
-
-const char *lop_path_key(const char *path)
-{
-    const char *bracket = strchr(path, '[');
-    const char *dot = NULL;
-    for (const char *c = path; *c && (!bracket || c < bracket); c++)
-        if (*c == '.')
-            dot = c;
-    return dot ? dot + 1 : path;
 }

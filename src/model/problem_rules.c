@@ -46,7 +46,10 @@ static lop_status build_believed(builder *b, const char *section, lop_rule_spec 
                             "a believed problem may change the model, not other rules or "
                             "outputs");
         }
-        if (lop_path_set(copy, e->key, e->value, section, e->line, b->err) != LOP_OK) {
+        lop_path path;
+        lop_path_site site = {section, e->key, e->line};
+        if (lop_path_parse(copy, e->key, &site, &path, b->err) != LOP_OK ||
+            lop_path_set(copy, &path, e->value, &site, b->err) != LOP_OK) {
             lop_config_free(copy);
             return b->err->status;
         }

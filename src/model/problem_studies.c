@@ -17,48 +17,31 @@
 #define SESSIONS_MAX 100000000
 #define TRIALS_MAX 100000000
 
-/* The section of cfg a path starts with (longest match), or NULL. */
-static const char *path_section(const lop_config *cfg, const char *path)
-{
-    const char *best = NULL;
-    for (size_t i = 0; i < cfg->n_sections; i++) {
-        const char *name = cfg->sections[i].name;
-        size_t n = strlen(name);
-        if (strncmp(path, name, n) == 0 && path[n] == '.' && (!best || n > strlen(best)))
-            best = name;
-    }
-    return best;
-}
-
 /* A path must name a key of a section present: one the file gives, or one the format
  * knows for that kind of section (`evidence.ear.repeats` may be absent and default to
  * 1); rule.threshold is the one special path of sweeps. */
-static lop_status check_path(builder *b, const char *section, const lop_entry *e)
+static lop_status check_path(builder *b, const char *section, const lop_entry *e,
+                             lop_path *parsed)
 {
-    lop_config *copy = lop_config_copy(b->cfg);
-    if (!copy)
-        return pb_no_memory(b);
-    lop_status st = lop_path_set(copy, e->value, "0", section, e->line, b->err);
-    lop_config_free(copy);
-    if (st != LOP_OK)
-        return st;
-    const char *sec = path_section(b->cfg, e->value);
-    char key[128], kind[96];
-    const char *k = e->value + strlen(sec) + 1;
-    snprintf(key, sizeof key, "%.*s", (int)strcspn(k, "["), k);
-    snprintf(kind, sizeof kind, "%.*s", (int)strcspn(sec, "."), sec);
+    lop_path_site site = {section, e->key, e->line};
+    if (lop_path_parse(b->cfg, e->value, &site, parsed, b->err) != LOP_OK)
+        return b->err->status;
+    char kind[LOP_PATH_PART];
+    snprintf(kind, sizeof kind, "%.*s", (int)strcspn(parsed->section, "."), parsed->section);
     bool free_form = strcmp(kind, "loss") == 0 || strcmp(kind, "payoff") == 0 ||
                      strcmp(kind, "rule") == 0;
-    if (lop_config_find(b->cfg, sec, key) || lop_keys_find(kind, key) || free_form)
+    if (lop_config_find(b->cfg, parsed->section, parsed->key) ||
+        lop_keys_find(kind, parsed->key) || free_form)
         return LOP_OK;
-    const char *near = lop_keys_suggest(kind, key);
+    const char *near = lop_keys_suggest(kind, parsed->key);
     return pb_error(b, e->line, section, e->key,
-                    "the path `%s` names nothing: [%s] has no key `%s`%s%s%s", e->value, sec,
-                    key, near ? "; did you mean `" : "", near ? near : "", near ? "`?" : "");
+                    "the path `%s` names nothing: [%s] has no key `%s`%s%s%s", e->value,
+                    parsed->section, parsed->key, near ? "; did you mean `" : "",
+                    near ? near : "", near ? "`?" : "");
 }
 
 static lop_status take_path(builder *b, const char *section, const char *key, bool special_ok,
-                            char **out, int *line)
+                            char **out, lop_path *parsed, int *line)
 {
     const lop_entry *e = pb_find(b, section, key);
     if (!e)
@@ -71,7 +54,12 @@ static lop_status take_path(builder *b, const char *section, const char *key, bo
     if (special_ok && strcmp(e->value, "rule.threshold") == 0)
         return LOP_OK;
     char *special[] = {"rule.threshold"};
-    if (special_ok && !path_section(b->cfg, e->value) && lop_nearest(e->value, special, 1))
+    bool has_section = false;
+    for (size_t i = 0; i < b->cfg->n_sections && !has_section; i++) {
+        size_t n = strlen(b->cfg->sections[i].name);
+        has_section = strncmp(e->value, b->cfg->sections[i].name, n) == 0 && e->value[n] == '.';
+    }
+    if (special_ok && !has_section && lop_nearest(e->value, special, 1))
         return pb_error(b, e->line, section, key,
                         "`%s` names nothing; did you mean `rule.threshold` (every threshold "
                         "of a two-action problem)?", e->value);
@@ -86,7 +74,16 @@ static lop_status take_path(builder *b, const char *section, const char *key, bo
                             "of [prior], [evidence], [loss] or [payoff], [states] or "
                             "[actions]",
                             e->value);
-    return check_path(b, section, e);
+    return check_path(b, section, e, parsed);
+}
+
+const char *lop_sweep_axis_label(const lop_sweep_spec *w, char axis, char *buf, size_t size)
+{
+    if (axis == 'x' && strcmp(w->x, "rule.threshold") == 0) {
+        snprintf(buf, size, "threshold");
+        return buf;
+    }
+    return lop_path_label(axis == 'x' ? &w->x_path : &w->y_path, buf, size);
 }
 
 static lop_status build_value(builder *b)
@@ -151,12 +148,13 @@ static lop_status build_value(builder *b)
     return st;
 }
 
-static lop_status read_axis(builder *b, const char *section, const char *axis,
-                            char **path, double *from, double *to, size_t *points, int *line)
+static lop_status read_axis(builder *b, const char *section, const char *axis, char **path,
+                            lop_path *parsed, double *from, double *to, size_t *points,
+                            int *line)
 {
     char key[16];
     snprintf(key, sizeof key, "%s_from", axis);
-    if (take_path(b, section, axis, true, path, line) != LOP_OK ||
+    if (take_path(b, section, axis, true, path, parsed, line) != LOP_OK ||
         pb_number(b, section, key, true, 0, from) != LOP_OK)
         return b->err->status;
     snprintf(key, sizeof key, "%s_to", axis);
@@ -180,8 +178,8 @@ static lop_status build_sweep(builder *b, const lop_section *sec, lop_sweep_spec
     w->line = sec->line;
     if (!w->name)
         return pb_no_memory(b);
-    if (read_axis(b, sec->name, "x", &w->x, &w->x_from, &w->x_to, &w->x_points, &w->x_line) !=
-        LOP_OK)
+    if (read_axis(b, sec->name, "x", &w->x, &w->x_path, &w->x_from, &w->x_to, &w->x_points,
+                  &w->x_line) != LOP_OK)
         return b->err->status;
     if (strcmp(w->x, "rule.threshold") == 0 &&
         (p->estimate || p->n_actions != 2 || lop_problem_numeric_channels(p) != 1))
@@ -193,8 +191,8 @@ static lop_status build_sweep(builder *b, const lop_section *sec, lop_sweep_spec
         any_y |= pb_find(b, sec->name, y_keys[i]) != NULL;
     if (!any_y)
         return LOP_OK;
-    if (read_axis(b, sec->name, "y", &w->y, &w->y_from, &w->y_to, &w->y_points, &w->y_line) !=
-        LOP_OK)
+    if (read_axis(b, sec->name, "y", &w->y, &w->y_path, &w->y_from, &w->y_to, &w->y_points,
+                  &w->y_line) != LOP_OK)
         return b->err->status;
     if (strcmp(w->y, "rule.threshold") == 0)
         return pb_error(b, w->y_line, sec->name, "y", "rule.threshold may only be the x axis");
@@ -214,12 +212,12 @@ static lop_status check_sweep_points(builder *b, const lop_sweep_spec *w)
 {
     bool threshold = strcmp(w->x, "rule.threshold") == 0;
     size_t nx = threshold ? 1 : w->x_points, ny = w->y ? w->y_points : 1;
-    const char *paths[2];
+    lop_path paths[2];
     size_t n_paths = 0;
     if (!threshold)
-        paths[n_paths++] = w->x;
+        paths[n_paths++] = w->x_path;
     if (w->y)
-        paths[n_paths++] = w->y;
+        paths[n_paths++] = w->y_path;
     if (!n_paths)
         return LOP_OK;
     lop_config *scratch = lop_config_copy(b->cfg);
@@ -227,7 +225,7 @@ static lop_status check_sweep_points(builder *b, const lop_sweep_spec *w)
         return pb_no_memory(b);
     char section[128];
     snprintf(section, sizeof section, "sweep.%s", w->name);
-    lop_study_site site = {section, threshold ? "y" : "x", threshold ? w->y_line : w->x_line};
+    lop_path_site site = {section, threshold ? "y" : "x", threshold ? w->y_line : w->x_line};
     lop_status st = LOP_OK;
     for (size_t j = 0; j < ny && st == LOP_OK; j++) {
         for (size_t i = 0; i < nx && st == LOP_OK; i++) {
@@ -259,8 +257,7 @@ static lop_status check_design_bracket(builder *b, const lop_design_spec *d)
         return pb_no_memory(b);
     char section[128];
     snprintf(section, sizeof section, "design.%s", d->name);
-    lop_study_site site = {section, "vary", d->vary_line};
-    const char *paths[1] = {d->vary};
+    lop_path_site site = {section, "vary", d->vary_line};
     lop_status st = LOP_OK;
     /* A point inside the bracket too: a key that takes whole numbers (repeats, points)
      * cannot be varied continuously, and should fail here rather than mid-search. */
@@ -268,7 +265,7 @@ static lop_status check_design_bracket(builder *b, const lop_design_spec *d)
                                         "a value inside the bracket"};
     for (int k = 0; k < 3 && st == LOP_OK; k++) {
         double v = k == 0 ? d->from : k == 1 ? d->to : d->from + 0.4142 * (d->to - d->from);
-        lop_problem *model = lop_study_model_at(scratch, paths, &v, 1, where[k], &site,
+        lop_problem *model = lop_study_model_at(scratch, &d->vary_path, &v, 1, where[k], &site,
                                                 b->err);
         if (!model)
             st = b->err->status;
@@ -285,7 +282,8 @@ static lop_status build_design(builder *b, const lop_section *sec, lop_design_sp
     d->line = sec->line;
     if (!d->name)
         return pb_no_memory(b);
-    if (take_path(b, sec->name, "vary", false, &d->vary, &d->vary_line) != LOP_OK ||
+    if (take_path(b, sec->name, "vary", false, &d->vary, &d->vary_path, &d->vary_line) !=
+            LOP_OK ||
         pb_number(b, sec->name, "from", true, 0, &d->from) != LOP_OK ||
         pb_number(b, sec->name, "to", true, 0, &d->to) != LOP_OK)
         return b->err->status;

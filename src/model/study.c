@@ -17,19 +17,20 @@ double lop_study_axis(double from, double to, size_t n, size_t i)
     return from + (to - from) * (double)i / (double)(n - 1);
 }
 
-lop_problem *lop_study_model_at(lop_config *cfg, const char *const *paths,
+lop_problem *lop_study_model_at(lop_config *cfg, const lop_path *paths,
                                 const double *values, size_t n, const char *where,
-                                const lop_study_site *site, lop_error *err)
+                                const lop_path_site *site, lop_error *err)
 {
     char settings[256] = "";
     size_t used = 0;
     for (size_t k = 0; k < n; k++) {
         char number[LOP_NUMBER_MAX];
         lop_shortest_number(values[k], number, sizeof number);
-        if (lop_path_set(cfg, paths[k], number, site->section, site->line, err) != LOP_OK)
+        if (lop_path_set(cfg, &paths[k], number, site, err) != LOP_OK)
             return NULL;
+        char text[2 * LOP_PATH_PART + 32];
         int w = snprintf(settings + used, sizeof settings - used, "%s%s = %s",
-                         k ? ", " : "", paths[k], number);
+                         k ? ", " : "", lop_path_text(&paths[k], text, sizeof text), number);
         if (w > 0 && (size_t)w < sizeof settings - used)
             used += (size_t)w;
     }

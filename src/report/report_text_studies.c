@@ -206,9 +206,9 @@ static void print_path_sweep(FILE *out, const lop_problem *p, const lop_results 
         sw_width = (int)strlen(sw) > sw_width ? (int)strlen(sw) : sw_width;
     }
     print_switch_note(out, p, r);
-    fprintf(out, "  %14.14s", lop_path_key(spec->x));
+    fprintf(out, "  %14.14s", LOP_SWEEP_AXIS(spec, 'x'));
     if (spec->y)
-        fprintf(out, "  %14.14s", lop_path_key(spec->y));
+        fprintf(out, "  %14.14s", LOP_SWEEP_AXIS(spec, 'y'));
     fprintf(out, "  %12s  %12s  %14s", risk_word(p), "EVPI",
             p->estimate ? "case estimate" : "case action");
     if (p->estimate)

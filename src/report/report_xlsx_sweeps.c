@@ -108,7 +108,8 @@ static void chart_against_x(sweep_sheet *S, const char *title, const char *x_nam
             char label[256];
             if (has_y(S))
                 snprintf(label, sizeof label, "%s%s%s = %.6g", n_vals > 1 ? names[v] : "",
-                         n_vals > 1 ? ", " : "", lop_path_key(sw->spec->y),
+                         n_vals > 1 ? ", " : "",
+                         LOP_SWEEP_AXIS(sw->spec, 'y'),
                          sw->points[j * sw->nx].y);
             else
                 snprintf(label, sizeof label, "%s", names[v]);
@@ -143,7 +144,8 @@ static void grid_block(sweep_sheet *S, lxw_col_t c0, const char *title, const ch
         return;
     }
     xw_put_text(w, ws, S->h - 1, c0, title, w->f.heading);
-    xw_put_textf(w, ws, S->h, c0, w->f.bold, "%s \\ y: %s", x_head, lop_path_key(sw->spec->y));
+    xw_put_textf(w, ws, S->h, c0, w->f.bold, "%s \\ y: %s", x_head,
+                 LOP_SWEEP_AXIS(sw->spec, 'y'));
     for (size_t j = 0; j < sw->ny; j++)
         xw_put_number(w, ws, S->h, (lxw_col_t)(c0 + 1 + j), sw->points[j * sw->nx].y,
                       w->f.value_bold);
@@ -393,7 +395,8 @@ static void path_sweep(sweep_sheet *S)
         char title[256];
         snprintf(title, sizeof title, "Bayes %s (%s per decision): x down, y across",
                  S->w->p->payoff ? "payoff" : "risk", xw_score_unit(S->w->p));
-        grid_block(S, S->next_col, title, lop_path_key(S->sw->spec->x), grid_risk);
+        grid_block(S, S->next_col, title, LOP_SWEEP_AXIS(S->sw->spec, 'x'),
+                   grid_risk);
     }
     S->chart_row = S->h;
     S->chart_col = S->next_col;
@@ -644,7 +647,8 @@ static void threshold_charts(sweep_sheet *S)
             lxw_row_t r0 = S->h + 1 + (lxw_row_t)(j * sw->nx);
             char label[200] = "thresholds";
             if (has_y(S))
-                snprintf(label, sizeof label, "%s = %.6g", lop_path_key(sw->spec->y), sw->rows[j].y);
+                snprintf(label, sizeof label, "%s = %.6g", LOP_SWEEP_AXIS(sw->spec, 'y'),
+                         sw->rows[j].y);
             if (!xw_series(w, chart, S->sheet, r0, r0 + (lxw_row_t)sw->nx - 1, S->col_fa,
                            S->col_hit, label))
                 return;
@@ -687,7 +691,8 @@ static void threshold_charts(sweep_sheet *S)
         char label[200];
         snprintf(label, sizeof label, "expected %s", lop_problem_orientation(p));
         if (has_y(S))
-            snprintf(label, sizeof label, "%s = %.6g", lop_path_key(sw->spec->y), sw->rows[j].y);
+            snprintf(label, sizeof label, "%s = %.6g", LOP_SWEEP_AXIS(sw->spec, 'y'),
+                     sw->rows[j].y);
         if (!xw_series(w, chart, S->sheet, r0, r0 + (lxw_row_t)sw->nx - 1, S->col_x,
                        S->col_loss, label))
             return;

@@ -40,9 +40,9 @@ static bool goal_at(design_ctx *ctx, double v, double *quantity, double *f, size
     const lop_design_spec *spec = ctx->spec;
     char where[64];
     snprintf(where, sizeof where, "inside the bracket %g to %g", spec->from, spec->to);
-    lop_study_site site = {ctx->section, "vary", spec->vary_line};
-    const char *paths[1] = {spec->vary};
-    lop_problem *model = lop_study_model_at(ctx->scratch, paths, &v, 1, where, &site, ctx->err);
+    lop_path_site site = {ctx->section, "vary", spec->vary_line};
+    lop_problem *model =
+        lop_study_model_at(ctx->scratch, &spec->vary_path, &v, 1, where, &site, ctx->err);
     if (!model) {
         ctx->st = ctx->err->status;
         return false;

@@ -109,8 +109,8 @@ static lop_status threshold_row(const lop_problem *model, const lop_results *res
 }
 
 /* The model at one point, solved; NULL with err set. */
-static lop_results *solve_at(lop_config *scratch, const char *const *paths, const double *values,
-                             size_t n, const char *where, const lop_study_site *site,
+static lop_results *solve_at(lop_config *scratch, const lop_path *paths, const double *values,
+                             size_t n, const char *where, const lop_path_site *site,
                              lop_problem **model, lop_error *err)
 {
     *model = lop_study_model_at(scratch, paths, values, n, where, site, err);
@@ -142,9 +142,8 @@ static lop_status sweep_thresholds(const lop_problem *p, lop_results *r, lop_swe
         if (spec->y) {
             char where[64];
             snprintf(where, sizeof where, "row %zu of %zu", j + 1, w->ny);
-            lop_study_site site = {section, "y", spec->y_line};
-            const char *paths[1] = {spec->y};
-            res = solve_at(scratch, paths, &y, 1, where, &site, &model, err);
+            lop_path_site site = {section, "y", spec->y_line};
+            res = solve_at(scratch, &spec->y_path, &y, 1, where, &site, &model, err);
             if (!res) {
                 st = err->status;
                 break;
@@ -170,11 +169,11 @@ static lop_status path_point(lop_config *scratch, lop_sweep_result *w, size_t k,
     lop_sweep_point *pt = &w->points[k];
     pt->x = lop_study_axis(spec->x_from, spec->x_to, spec->x_points, i);
     pt->y = spec->y ? lop_study_axis(spec->y_from, spec->y_to, spec->y_points, j) : 0;
-    const char *paths[2] = {spec->x, spec->y};
+    const lop_path paths[2] = {spec->x_path, spec->y_path};
     double values[2] = {pt->x, pt->y};
     char where[64];
     snprintf(where, sizeof where, "point %zu of %zu", k + 1, w->nx * w->ny);
-    lop_study_site site = {section, "x", spec->x_line};
+    lop_path_site site = {section, "x", spec->x_line};
     lop_problem *model = NULL;
     lop_results *res = solve_at(scratch, paths, values, spec->y ? 2 : 1, where, &site, &model,
                                 err);

@@ -41,11 +41,16 @@ static void assert_only_changed(const lop_config *cfg, const char *section, cons
     lop_config_free(orig);
 }
 
-/* Sets path to value with the path given on line 20 of [sweep.s]; returns the status. */
+/* Where the tests' paths are given: key x of [sweep.s], line 20. */
+static const lop_path_site site = {"sweep.s", "x", 20};
+
+/* Parses path and sets it to value; returns the status. */
 static lop_status set(lop_config *cfg, const char *path, const char *value, lop_error *err)
 {
     memset(err, 0, sizeof *err);
-    return lop_path_set(cfg, path, value, "sweep.s", 20, err);
+    lop_path parsed;
+    lop_status st = lop_path_parse(cfg, path, &site, &parsed, err);
+    return st == LOP_OK ? lop_path_set(cfg, &parsed, value, &site, err) : st;
 }
 
 /* Sets path to value in a fresh config of `file` and checks that only section/key
@@ -107,8 +112,8 @@ START_TEST(an_absent_whole_key_is_added_at_the_paths_line)
 }
 END_TEST
 
-/* Paths naming nothing: an input error at the giving entry's line, in its section,
- * keyed by the path, with the reason; the config unchanged. */
+/* Paths naming nothing: an input error at the giving entry's line, in its section and
+ * key, naming the path and the reason; the config unchanged. */
 START_TEST(bad_paths_are_errors_at_the_giving_line)
 {
     static const char *const cases[][2] = {
@@ -120,36 +125,43 @@ START_TEST(bad_paths_are_errors_at_the_giving_line)
         {"payoff.yes[x]", "a whole number from 1"},
         {"payoff.yes[2]x", "a whole number from 1"},
         {"payoff.yes[2", "a whole number from 1"},
-        {"payoff.yes[4]", "has 3 entries, not 4"},
+        {"payoff.yes[ 2]", "a whole number from 1"},
+        {"payoff.yes[+2]", "a whole number from 1"},
+        {"payoff.yes[4]", "names entry 4, but [payoff] yes has 3 entries"},
         {"payoff.maybe[1]", "has no key `maybe`"},
     };
     for (size_t i = 0; i < sizeof cases / sizeof *cases; i++) {
         lop_config *cfg = test_config(file);
         lop_error err;
         ck_assert_int_eq(set(cfg, cases[i][0], "1", &err), LOP_EINPUT);
-        test_check_error(&err, 20, "sweep.s", cases[i][0], cases[i][1]);
+        test_check_error(&err, 20, "sweep.s", "x", cases[i][1]);
+        ck_assert_msg(strstr(err.message, cases[i][0]) != NULL, "the path is named: %s",
+                      err.message);
         assert_only_changed(cfg, NULL, NULL, NULL);
         lop_config_free(cfg);
     }
 }
 END_TEST
 
-/* The last part of a path names an axis: after the last dot before any index. */
+/* The last part of a path names an axis: its key, with the index when it has one; the
+ * whole path reads back as written. */
 START_TEST(path_key_is_the_last_part)
 {
     static const char *const cases[][2] = {
-        {"payoff.say_yes[1]", "say_yes[1]"},
+        {"payoff.yes[1]", "yes[1]"},
         {"evidence.swab.sd", "sd"},
         {"prior.sd", "sd"},
-        {"loss.x[1.5]", "x[1.5]"},
-        {"plain", "plain"},
     };
+    lop_config *cfg = test_config(file);
     for (size_t i = 0; i < sizeof cases / sizeof *cases; i++) {
-        const char *key = lop_path_key(cases[i][0]);
-        ck_assert_str_eq(key, cases[i][1]);
-        /* A pointer into the path, not a copy. */
-        ck_assert_ptr_eq(key, cases[i][0] + strlen(cases[i][0]) - strlen(cases[i][1]));
+        lop_path path;
+        lop_error err = {0};
+        ck_assert_int_eq(lop_path_parse(cfg, cases[i][0], &site, &path, &err), LOP_OK);
+        char buf[LOP_PATH_PART * 2 + 32];
+        ck_assert_str_eq(lop_path_label(&path, buf, sizeof buf), cases[i][1]);
+        ck_assert_str_eq(lop_path_text(&path, buf, sizeof buf), cases[i][0]);
     }
+    lop_config_free(cfg);
 }
 END_TEST
 

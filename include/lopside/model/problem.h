@@ -7,6 +7,7 @@
 #include <stddef.h>
 
 #include "lopside/input/config.h"
+#include "lopside/input/path.h"
 #include "lopside/model/curve.h"
 #include "lopside/model/posterior.h"
 #include "lopside/util/error.h"
@@ -85,6 +86,7 @@ typedef struct {
     char *name;
     int line;
     char *x;                 /* a path, or "rule.threshold" */
+    lop_path x_path, y_path; /* parsed (x_path unless x is rule.threshold; y_path with y) */
     double x_from, x_to;
     size_t x_points;         /* default 21 */
     char *y;                 /* NULL for a one-axis sweep */
@@ -101,6 +103,7 @@ typedef struct {
     char *name;
     int line;
     char *vary;              /* a path */
+    lop_path vary_path;      /* parsed */
     int vary_line;
     double from, to;         /* the bracket */
     lop_goal goal;
@@ -184,6 +187,14 @@ typedef struct lop_problem {
 
     char *out_json, *out_csv, *out_workbook;  /* from [output], relative to the file */
 } lop_problem;
+
+/* Returns buf holding a short name of sweep w's axis ('x' or 'y'): the last part of its
+ * path ("say_yes[1]"), or "threshold" for rule.threshold. */
+const char *lop_sweep_axis_label(const lop_sweep_spec *w, char axis, char *buf, size_t size);
+
+/* The same in a buffer of the enclosing block, for use inside a printf. */
+#define LOP_SWEEP_AXIS(w, axis)                                                            \
+    lop_sweep_axis_label((w), (axis), (char[LOP_PATH_PART + 24]){0}, LOP_PATH_PART + 24)
 
 /* Returns a validated problem built from cfg, or NULL with err set. */
 lop_problem *lop_problem_build(const lop_config *cfg, lop_error *err);

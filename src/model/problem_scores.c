@@ -325,6 +325,11 @@ static lop_status check_curve_params(builder *b, const char *section)
         check_param(b, section, "below", c->below >= 0, ">= 0") != LOP_OK ||
         check_param(b, section, "above", c->above >= 0, ">= 0") != LOP_OK)
         return LOP_EINPUT;
+    /* A band of no width holds a continuous state with probability 0: every estimate
+     * would score `outside`, which is never what a file with a tolerance means. */
+    if (!(c->below + c->above > 0))
+        return check_param(b, section, "above", false,
+                           "> 0 when below is 0 (a band of no width holds no state)");
     if (c->relative && c->below >= 1)
         return check_param(b, section, pb_find(b, section, "below") ? "below" : "half_width",
                            false, "below 1 when relative = yes (the band reaches down to "
